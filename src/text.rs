@@ -1,0 +1,200 @@
+//! Plain-text rendering of a fit, in plumbline's own layout: what was
+//! modelled and on which rows, a readable coefficient table, how well it
+//! fits, how it was computed, notes, cautions, and then every number again
+//! at full precision (17 significant digits) for scripts and checks.
+
+use crate::schema::FitReport;
+use std::fmt::Write;
+
+/// A number rounded to `digits` significant digits for reading.
+pub fn short(x: f64, digits: usize) -> String {
+    if x.is_nan() {
+        return "n/a".into();
+    }
+    if x.is_infinite() {
+        return if x > 0.0 { "inf".into() } else { "-inf".into() };
+    }
+    if x == 0.0 {
+        return "0".into();
+    }
+    let mag = x.abs().log10().floor() as i32;
+    if (-4..6).contains(&mag) {
+        let decimals = (digits as i32 - 1 - mag).max(0) as usize;
+        format!("{x:.decimals$}")
+    } else {
+        format!("{:.*e}", digits.saturating_sub(1), x)
+    }
+}
+
+/// A number with 17 significant digits, so that it reads back exactly.
+pub fn full(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x:.16e}")
+    } else {
+        short(x, 1)
+    }
+}
+
+fn p_value(p: f64) -> String {
+    if p.is_finite() && p < 1e-16 {
+        "< 1e-16".into()
+    } else {
+        short(p, 3)
+    }
+}
+
+/// Renders a fit report as text.
+pub fn render_fit(r: &FitReport) -> String {
+    let mut s = String::new();
+    let pct = format!("{}", (r.level * 1e6).round() / 1e4);
+    let _ = writeln!(s, "Model of {}", r.response);
+    let terms = if r.terms.is_empty() { "none".to_string() } else { r.terms.join(", ") };
+    let _ = writeln!(s, "  terms: {terms}");
+    let _ = writeln!(s, "  intercept: {}", if r.intercept { "yes" } else { "no" });
+    if let Some(w) = &r.weights {
+        let _ = writeln!(s, "  weighted by: {w}");
+    }
+    let _ = write!(s, "  rows: {} used, {} left out", r.n, r.n_dropped);
+    if !r.dropped.is_empty() {
+        let parts: Vec<String> = r.dropped.iter().map(|d| format!("{}: {}", d.reason, d.count)).collect();
+        let _ = write!(s, " ({})", parts.join("; "));
+    }
+    s.push_str("\n\n");
+
+    let _ = writeln!(s, "Coefficients, with {pct}% confidence intervals");
+    let header = ["term", "estimate", "std. error", "t", "p-value", "low", "high"];
+    let mut rows: Vec<[String; 7]> = vec![header.map(String::from)];
+    for c in &r.coefficients {
+        if c.aliased {
+            rows.push([c.term.clone(), "aliased".into(), "".into(), "".into(), "".into(), "".into(), "".into()]);
+        } else {
+            rows.push([
+                c.term.clone(),
+                short(c.estimate, 6),
+                short(c.std_error, 4),
+                short(c.t, 4),
+                p_value(c.p_value),
+                short(c.ci_low, 6),
+                short(c.ci_high, 6),
+            ]);
+        }
+    }
+    let widths: Vec<usize> = (0..7).map(|j| rows.iter().map(|row| row[j].chars().count()).max().unwrap_or(0)).collect();
+    for row in &rows {
+        let mut line = format!("  {:<w$}", row[0], w = widths[0]);
+        for j in 1..7 {
+            let _ = write!(line, "  {:>w$}", row[j], w = widths[j]);
+        }
+        let _ = writeln!(s, "{}", line.trim_end());
+    }
+    if let Some(h) = &r.hc3 {
+        let _ = writeln!(s, "\nWith HC3 (heteroscedasticity-robust) standard errors");
+        for c in h {
+            let _ = writeln!(
+                s,
+                "  {:<w$}  std. error {}  t {}  p-value {}  interval {} to {}",
+                c.term,
+                short(c.std_error, 4),
+                short(c.t, 4),
+                p_value(c.p_value),
+                short(c.ci_low, 6),
+                short(c.ci_high, 6),
+                w = widths[0]
+            );
+        }
+    }
+
+    let _ = writeln!(s, "\nHow well it fits");
+    let _ = writeln!(s, "  R² ({}): {}   adjusted R²: {}", r.r_squared_kind, short(r.r_squared, 6), short(r.adj_r_squared, 6));
+    let _ = writeln!(s, "  residual standard error: {} on {} degrees of freedom", short(r.residual_std_error, 4), r.df_residual);
+    if r.f_statistic.is_nan() {
+        let _ = writeln!(s, "  F test: not defined for this model");
+    } else {
+        let _ = writeln!(
+            s,
+            "  F: {} on {} and {} degrees of freedom, p-value {}",
+            short(r.f_statistic, 4),
+            r.df_model,
+            r.df_residual,
+            p_value(r.f_p_value)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  log-likelihood: {}   AIC: {}   BIC: {}",
+        short(r.log_likelihood, 6),
+        short(r.aic, 6),
+        short(r.bic, 6)
+    );
+
+    let _ = writeln!(s, "\nHow it was computed");
+    let _ = writeln!(s, "  arithmetic: {}", r.solver_path.describe());
+    let _ = writeln!(
+        s,
+        "  condition number (scaled columns): {}; rank {} of {} columns (tolerance {})",
+        short(r.condition_number, 3),
+        r.rank,
+        r.n_columns,
+        short(r.rank_tolerance, 2)
+    );
+
+    if !r.warnings.is_empty() {
+        let _ = writeln!(s, "\nNotes");
+        for w in &r.warnings {
+            let _ = writeln!(s, "  - {w}");
+        }
+    }
+    let _ = writeln!(s, "\nBefore you rely on this");
+    for c in &r.cautions {
+        let _ = writeln!(s, "  - {c}");
+    }
+
+    let _ = writeln!(s, "\nEvery number at full precision");
+    for c in &r.coefficients {
+        if c.aliased {
+            let _ = writeln!(s, "  {}: aliased, not estimated", c.term);
+            continue;
+        }
+        let _ = writeln!(
+            s,
+            "  {}: estimate {}  std. error {}  t {}  p-value {}  low {}  high {}",
+            c.term,
+            full(c.estimate),
+            full(c.std_error),
+            full(c.t),
+            full(c.p_value),
+            full(c.ci_low),
+            full(c.ci_high)
+        );
+    }
+    for (name, v) in [
+        ("R²", r.r_squared),
+        ("adjusted R²", r.adj_r_squared),
+        ("residual standard error", r.residual_std_error),
+        ("residual sum of squares", r.rss),
+        ("total sum of squares", r.tss),
+        ("F", r.f_statistic),
+        ("F p-value", r.f_p_value),
+        ("log-likelihood", r.log_likelihood),
+        ("AIC", r.aic),
+        ("BIC", r.bic),
+    ] {
+        let _ = writeln!(s, "  {name}: {}", full(v));
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn short_numbers_read_well() {
+        assert_eq!(short(1234.5678, 4), "1235");
+        assert_eq!(short(0.012345, 3), "0.0123");
+        assert_eq!(short(-2.5e-7, 3), "-2.50e-7");
+        assert_eq!(short(0.0, 3), "0");
+        assert_eq!(short(f64::NAN, 3), "n/a");
+        assert_eq!(full(0.1), "1.0000000000000001e-1");
+    }
+}
