@@ -66,6 +66,12 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         }
     };
     let mut warnings = design.warnings.clone();
+    if let Some(label) = extreme_column(design) {
+        warnings.push(format!(
+            "{label} has values beyond about 1e±150, whose squares double precision cannot hold, so some figures \
+             may show as infinite or undefined. Rescale it (for example to thousands or millions) and fit again."
+        ));
+    }
 
     // Sums in double-double from the (unweighted) response.
     let y: Vec<DD> = (0..n).map(|i| design.response.get(i)).collect();
@@ -152,7 +158,7 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         });
     }
     if !sol.aliased.is_empty() {
-        let names: Vec<String> = sol.aliased.iter().map(|&j| format!("\"{}\"", design.columns[j].label)).collect();
+        let names: Vec<String> = sol.aliased.iter().map(|&j| design.columns[j].label.clone()).collect();
         warnings.push(format!(
             "{} {} an exact combination of earlier columns (a duplicate, or a category coded with every level), \
              so {} not estimated.",
@@ -228,6 +234,16 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         warnings,
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
     }
+}
+
+/// The first column (response first) with a non-zero magnitude outside
+/// [1e-150, 1e150].
+fn extreme_column(design: &Design) -> Option<String> {
+    let extreme = |v: &[f64]| v.iter().any(|x| x.abs() > 1e150 || (*x != 0.0 && x.abs() < 1e-150));
+    if extreme(&design.response.hi) {
+        return Some(design.response_label.clone());
+    }
+    design.columns.iter().find(|c| extreme(&c.values.hi)).map(|c| c.label.clone())
 }
 
 /// Weighted standard deviation √(Σw(v − v̄_w)²/Σw).

@@ -220,9 +220,18 @@ fn finish<T: Real>(
         }
         residuals = residuals_dd(x, y, &qr.accepted, &coef_dd);
     }
+    // If the coefficients rounded to f64 fit at least as well (an exact fit
+    // with representable coefficients), keep them: the residuals are then
+    // exactly zero instead of 1e-90-sized remnants.
+    let rounded: Vec<DD> = coef_dd.iter().map(|c| DD::from_f64(c.to_f64())).collect();
+    let rounded_residuals = residuals_dd(x, y, &qr.accepted, &rounded);
+    if sum_sq(&rounded_residuals) <= sum_sq(&residuals) {
+        coef_dd = rounded;
+        residuals = rounded_residuals;
+    }
     let coef: Vec<f64> =
         (0..p).map(|j| if qr.accepted.contains(&j) { coef_dd[j].to_f64() } else { f64::NAN }).collect();
-    let rss = residuals.iter().fold(DD::ZERO, |s, &e| s + e * e);
+    let rss = sum_sq(&residuals);
 
     // (XᵀX)⁻¹ = C R⁻¹ R⁻ᵀ C in the original column order.
     let mut xtx_inv = vec![f64::NAN; p * p];
@@ -332,6 +341,10 @@ fn residuals_dd(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD]) -
         }
     }
     r
+}
+
+fn sum_sq(v: &[DD]) -> DD {
+    v.iter().fold(DD::ZERO, |s, &e| s + e * e)
 }
 
 /// The power of two that brings the column's 2-norm into [0.5, 1).

@@ -398,7 +398,7 @@ impl EvalContext<'_> {
             }
             Term::Log(t) => {
                 let v = self.number(t)?;
-                let bad: Vec<usize> = (0..v.len()).filter(|&i| !(v[i].hi > 0.0)).collect();
+                let bad: Vec<usize> = (0..v.len()).filter(|&i| v[i].hi <= 0.0 || v[i].hi.is_nan()).collect();
                 if let Some(&first) = bad.first() {
                     return Err(DesignError::LogOfNonPositive {
                         term: t.to_string(),

@@ -132,6 +132,11 @@ pub fn parse_terms(text: &str) -> Result<Vec<Term>, TermError> {
                 p.bump();
             }
             Tok::End => return Ok(terms),
+            Tok::Number(n) if n.starts_with(['+', '-']) => {
+                return Err(p.error(
+                    "terms are separated by commas, not + or -; put names with spaces or symbols in double quotes",
+                ))
+            }
             _ => return Err(p.error("expected a comma between terms")),
         }
     }
@@ -293,21 +298,20 @@ impl Parser {
         if self.peek() != &Tok::Caret {
             return Ok(atom);
         }
+        let caret = self.at;
         self.bump();
         let k = match self.bump() {
             Tok::Number(s) => s.parse::<u32>().ok(),
             _ => None,
         };
         match k {
-            Some(k @ 2..=10) => {
-                if atom.has_category() {
-                    Err(self.error("a category cannot be raised to a power"))
-                } else {
-                    Ok(Term::Power(Box::new(atom), k))
-                }
+            Some(k @ 2..=10) if !atom.has_category() => Ok(Term::Power(Box::new(atom), k)),
+            Some(2..=10) => {
+                self.at = caret;
+                Err(self.error("a category cannot be raised to a power"))
             }
             _ => {
-                self.at -= 1;
+                self.at = caret;
                 Err(self.error("a power must be a whole number from 2 to 10"))
             }
         }
@@ -423,11 +427,11 @@ mod tests {
     #[test]
     fn mistakes_are_located() {
         check_error("x, ", 3, "expected a column name");
-        check_error("x^1", 2, "from 2 to 10");
-        check_error("x^11", 2, "from 2 to 10");
+        check_error("x^1", 1, "from 2 to 10");
+        check_error("x^11", 1, "from 2 to 10");
         check_error("exp(x)", 3, "no function called exp");
         check_error("floor area", 6, "expected a comma");
-        check_error("a + b", 2, "double quotes");
+        check_error("a + b", 2, "separated by commas, not + or -");
         check_error("\"open", 0, "never closed");
         check_error("cat(g)^2", 6, "category cannot be raised");
         check_error("log(cat(g))", 10, "needs a number");

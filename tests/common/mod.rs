@@ -88,3 +88,63 @@ impl Mismatches {
         assert!(self.0.is_empty(), "{context}: {} mismatches:\n  {}", self.0.len(), self.0.join("\n  "));
     }
 }
+
+/// A small seeded generator (SplitMix64) for test data, so that tests do not
+/// depend on another crate's stream.
+pub struct Rng(u64);
+
+impl Rng {
+    pub fn new(seed: u64) -> Rng {
+        Rng(seed)
+    }
+    pub fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    pub fn uniform(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+    /// Standard normal (Box–Muller).
+    pub fn normal(&mut self) -> f64 {
+        let u = self.uniform().max(1e-300);
+        let v = self.uniform();
+        (-2.0 * u.ln()).sqrt() * (2.0 * std::f64::consts::PI * v).cos()
+    }
+}
+
+/// A seeded regression problem: `p` predictors x1..xp with different
+/// scales, y = 1 + Σ βⱼxⱼ + noise.
+pub fn random_table(seed: u64, n: usize, p: usize) -> plumbline::table::Table {
+    let mut rng = Rng::new(seed);
+    let mut cols: Vec<(String, Vec<f64>)> = Vec::new();
+    let mut y = vec![1.0; n];
+    for j in 0..p {
+        let scale = 10f64.powi((j % 5) as i32 - 2);
+        let x: Vec<f64> = (0..n).map(|_| rng.normal() * scale + scale).collect();
+        let beta = rng.normal() / scale;
+        for i in 0..n {
+            y[i] += beta * x[i];
+        }
+        cols.push((format!("x{}", j + 1), x));
+    }
+    for v in y.iter_mut() {
+        *v += rng.normal();
+    }
+    cols.insert(0, ("y".to_string(), y));
+    plumbline::table::Table::from_numeric(cols)
+}
+
+/// Fits a table through the library.
+pub fn fit_table(table: &plumbline::table::Table, response: &str, terms: &str, intercept: bool, options: FitOptions) -> Result<Fitted, plumbline::model::FitError> {
+    let spec = ModelSpec {
+        response: parse_term(response).unwrap(),
+        terms: parse_terms(terms).unwrap(),
+        intercept,
+        weights: None,
+    };
+    fit(table, &spec, &options)
+}

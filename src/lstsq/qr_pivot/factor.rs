@@ -55,7 +55,7 @@ pub fn factor_qr_pivoted<T: Real>(mut a: Vec<T>, rows: usize, cols: usize, param
         let col = &a[k * n..(k + 1) * n];
         let rest = norm(&col[k..]);
         let limit = orig_norm[order[k]] * T::from_f64(params.rank_tol);
-        if !(rest > limit) {
+        if rest.partial_cmp(&limit) != Some(std::cmp::Ordering::Greater) {
             // Defer: rotate this column to the end of the candidates.
             aliased.push(order[k]);
             a[k * n..end * n].rotate_left(n);

@@ -33,8 +33,8 @@ impl<T: Real> PivotedQr<T> {
         let mut x: Vec<T> = b[..r].to_vec();
         for i in (0..r).rev() {
             let mut s = x[i];
-            for j in i + 1..r {
-                s = s - self.r(i, j) * x[j];
+            for (j, &xj) in x.iter().enumerate().skip(i + 1) {
+                s = s - self.r(i, j) * xj;
             }
             x[i] = s / self.r(i, i);
         }

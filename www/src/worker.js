@@ -1,0 +1,65 @@
+// The worker: loads the wasm and answers fit messages. It holds no
+// statistics; every number comes from the wasm `fit_csv`.
+//
+// The build (www/tools/inline.mjs) puts the wasm-bindgen glue in front of
+// this file and removes the import line below, so that the whole worker is
+// one module that starts from a data: URL.
+import { initSync, fit_csv, last_panic } from './plumbline.js';
+
+// Messages in:
+//   {type: 'init', wasm: Uint8Array}              -> {type: 'ready'} | {type: 'failed', message}
+//   {type: 'fit', id, bytes: Uint8Array, request}  -> {type: 'result', id, json}
+//                                                  | {type: 'panic', id, message}
+//   {type: 'die', id}  (test hook) throws outside any handler, so that the
+//                      page sees the worker's error event.
+let ready = false;
+
+function panicMessage(e) {
+  let message = null;
+  try {
+    message = last_panic() ?? null;
+  } catch (_) {
+    // The instance may be unusable after a trap; the thrown error is all we have.
+  }
+  return message ?? `The calculation stopped on an internal error, which is a bug: ${e && e.message ? e.message : e}`;
+}
+
+self.onmessage = (event) => {
+  const msg = event.data || {};
+  switch (msg.type) {
+    case 'init': {
+      try {
+        initSync({ module: msg.wasm });
+        ready = true;
+        self.postMessage({ type: 'ready' });
+      } catch (e) {
+        self.postMessage({ type: 'failed', message: String(e && e.message ? e.message : e) });
+      }
+      return;
+    }
+    case 'fit': {
+      if (!ready) {
+        self.postMessage({ type: 'panic', id: msg.id, message: 'The calculation part of the page was not ready.' });
+        return;
+      }
+      let json;
+      try {
+        json = fit_csv(msg.bytes, msg.request);
+      } catch (e) {
+        // A Rust panic aborts the wasm call; the hook kept its message.
+        self.postMessage({ type: 'panic', id: msg.id, message: panicMessage(e) });
+        return;
+      }
+      self.postMessage({ type: 'result', id: msg.id, json });
+      return;
+    }
+    case 'die': {
+      setTimeout(() => {
+        throw new Error('stopped on purpose by the test hook');
+      }, 0);
+      return;
+    }
+    default:
+      self.postMessage({ type: 'panic', id: msg.id, message: `Unknown message type ${String(msg.type)}.` });
+  }
+};
