@@ -24,6 +24,7 @@
 pub mod inference;
 pub mod lstsq;
 pub mod model;
+pub mod profile;
 pub mod read;
 pub mod schema;
 pub mod table;

@@ -5,8 +5,7 @@
 //! (a plain message says why), 2 the command line itself is wrong.
 
 use plumbline::model::{fit, FitOptions};
-use plumbline::read::csv::read_csv;
-use plumbline::table::Table;
+use plumbline::read::{read_table, Loaded, ReadOptions};
 use plumbline::terms::{parse_term, parse_terms, ModelSpec};
 use std::process::ExitCode;
 
@@ -15,6 +14,14 @@ plumbline: linear models from a spreadsheet, computed on this machine
 
 Usage:
   plumbline fit FILE --response R [--terms \"T1, T2, ...\"] [options]
+  plumbline profile FILE [--kind COLUMN=KIND ...] [--json]
+  plumbline sheets FILE
+
+FILE may be CSV or other delimited text (the delimiter, decimal mark and
+encoding are found), or a workbook: xlsx, xlsm, xlsb, xls, ods.
+Every command that reads FILE accepts:
+  --sheet NAME      the sheet of a workbook (default: the first with data)
+  --header-row N    the row that holds the column names (default: found)
 
 Options of fit:
   --response R      the column to explain; may be log(c) or sqrt(c)
@@ -26,6 +33,11 @@ Options of fit:
   --hc3             also report HC3 heteroscedasticity-robust standard errors
   --json            print the result as JSON
   --help            show this text
+
+Options of profile:
+  --kind C=K        set the kind of column C, overriding what was found; K is
+                    numeric, coded_category, text_category, binary, identifier
+  --json            print the profile as JSON
 ";
 
 /// Raw flags as typed, before validation.
@@ -39,6 +51,36 @@ struct RawFitArgs {
     weights: Option<String>,
     hc3: bool,
     json: bool,
+    read: RawReadArgs,
+}
+
+/// Flags every command that reads a file accepts.
+#[derive(Default)]
+struct RawReadArgs {
+    sheet: Option<String>,
+    header_row: Option<String>,
+}
+
+impl RawReadArgs {
+    /// Takes `--sheet` and `--header-row`; false when `flag` is neither.
+    fn take(&mut self, flag: &str, value: &mut dyn FnMut(&str) -> Result<String, Failure>) -> Result<bool, Failure> {
+        match flag {
+            "--sheet" => self.sheet = Some(value(flag)?),
+            "--header-row" => self.header_row = Some(value(flag)?),
+            _ => return Ok(false),
+        }
+        Ok(true)
+    }
+
+    fn options(&self) -> Result<ReadOptions, Failure> {
+        let header_row = match &self.header_row {
+            None => None,
+            Some(h) => Some(h.trim().parse::<usize>().ok().filter(|&r| r >= 1).ok_or_else(|| {
+                Failure::usage(format!("--header-row must be a row number (1 or more), not \"{h}\"."))
+            })?),
+        };
+        Ok(ReadOptions { sheet: self.sheet.clone(), header_row, ..ReadOptions::default() })
+    }
 }
 
 /// A failure, with the exit code it maps to.
@@ -77,6 +119,8 @@ fn run(args: &[String]) -> Result<String, Failure> {
     match args.first().map(String::as_str) {
         None | Some("--help") | Some("-h") | Some("help") => Ok(USAGE.to_string()),
         Some("fit") => run_fit(&args[1..]),
+        Some("profile") => run_profile(&args[1..]),
+        Some("sheets") => run_sheets(&args[1..]),
         Some(other) => Err(Failure::usage(format!("There is no command \"{other}\".\n\n{USAGE}"))),
     }
 }
@@ -88,6 +132,9 @@ fn parse_fit_args(args: &[String]) -> Result<RawFitArgs, Failure> {
         let mut value = |flag: &str| {
             it.next().cloned().ok_or_else(|| Failure::usage(format!("{flag} needs a value after it.")))
         };
+        if raw.read.take(a, &mut value)? {
+            continue;
+        }
         match a.as_str() {
             "--response" => raw.response = Some(value(a)?),
             "--terms" => raw.terms = Some(value(a)?),
@@ -127,7 +174,7 @@ fn run_fit(args: &[String]) -> Result<String, Failure> {
             .ok_or_else(|| Failure::usage(format!("--level must be a number between 0 and 1, such as 0.95, not \"{l}\".")))?;
     }
     let spec = ModelSpec { response, terms, intercept: !raw.no_intercept, weights: raw.weights };
-    let table = load_table(&file)?;
+    let table = load_table(&file, &raw.read)?.table;
     let fitted = fit(&table, &spec, &options).map_err(|e| Failure::data(e.to_string()))?;
     if raw.json {
         let mut s = serde_json::to_string_pretty(&fitted.report).map_err(|e| Failure::data(e.to_string()))?;
@@ -138,13 +185,79 @@ fn run_fit(args: &[String]) -> Result<String, Failure> {
     }
 }
 
-fn load_table(path: &str) -> Result<Table, Failure> {
+fn load_table(path: &str, read: &RawReadArgs) -> Result<Loaded, Failure> {
+    let options = read.options()?;
     let bytes = std::fs::read(path).map_err(|e| Failure::data(format!("Could not open \"{path}\": {e}.")))?;
-    let lower = path.to_lowercase();
-    if [".xlsx", ".xlsm", ".xlsb", ".xls", ".ods"].iter().any(|ext| lower.ends_with(ext)) {
-        return Err(Failure::data(format!(
-            "\"{path}\" is a workbook; this version reads comma-separated text only. Save the sheet as CSV and try again."
-        )));
+    read_table(&bytes, &options).map_err(|e| Failure::data(format!("Could not read \"{path}\": {e}")))
+}
+
+fn run_profile(args: &[String]) -> Result<String, Failure> {
+    let mut read = RawReadArgs::default();
+    let mut file = None;
+    let mut json = false;
+    let mut kinds = Vec::new();
+    let mut it = args.iter();
+    while let Some(a) = it.next() {
+        let mut value = |flag: &str| {
+            it.next().cloned().ok_or_else(|| Failure::usage(format!("{flag} needs a value after it.")))
+        };
+        if read.take(a, &mut value)? {
+            continue;
+        }
+        match a.as_str() {
+            "--json" => json = true,
+            "--kind" => {
+                let v = value(a)?;
+                let (col, kind) = v.rsplit_once('=').ok_or_else(|| {
+                    Failure::usage(format!("--kind takes COLUMN=KIND, such as zone=coded_category, not \"{v}\"."))
+                })?;
+                let kind = plumbline::profile::Kind::parse(kind.trim()).ok_or_else(|| {
+                    Failure::usage(format!(
+                        "\"{kind}\" is not a kind; use numeric, coded_category, text_category, binary or identifier."
+                    ))
+                })?;
+                kinds.push((col.trim().to_string(), kind));
+            }
+            s if s.starts_with("--") => {
+                return Err(Failure::usage(format!("There is no option \"{s}\" for profile.\n\n{USAGE}")))
+            }
+            s => {
+                if file.replace(s.to_string()).is_some() {
+                    return Err(Failure::usage("profile takes one file."));
+                }
+            }
+        }
     }
-    read_csv(&bytes).map_err(|e| Failure::data(format!("Could not read \"{path}\": {e}")))
+    let file = file.ok_or_else(|| Failure::usage(format!("profile needs a data file.\n\n{USAGE}")))?;
+    let loaded = load_table(&file, &read)?;
+    for (c, _) in &kinds {
+        if loaded.table.column(c).is_none() {
+            return Err(Failure::data(format!("--kind names \"{c}\", but there is no such column.")));
+        }
+    }
+    let profile = plumbline::profile::profile_table(&loaded.table, &plumbline::profile::ProfileOptions { kinds });
+    let report = plumbline::schema::ProfileReport {
+        load: plumbline::schema::LoadSummary::of(&loaded),
+        rows: profile.rows,
+        columns: profile.columns,
+    };
+    if json {
+        let mut s = serde_json::to_string_pretty(&report).map_err(|e| Failure::data(e.to_string()))?;
+        s.push('\n');
+        Ok(s)
+    } else {
+        Ok(plumbline::text::render_profile(&report))
+    }
+}
+
+fn run_sheets(args: &[String]) -> Result<String, Failure> {
+    let [file] = args else {
+        return Err(Failure::usage(format!("sheets takes one file.\n\n{USAGE}")));
+    };
+    let bytes = std::fs::read(file).map_err(|e| Failure::data(format!("Could not open \"{file}\": {e}.")))?;
+    let sheets = plumbline::read::list_sheets(&bytes).map_err(|e| Failure::data(format!("Could not read \"{file}\": {e}")))?;
+    if sheets.is_empty() {
+        return Ok(format!("\"{file}\" is text, with one table and no sheets.\n"));
+    }
+    Ok(sheets.iter().map(|s| format!("{s}\n")).collect())
 }

@@ -153,3 +153,50 @@ pub struct FitReport {
     pub warnings: Vec<String>,
     pub cautions: Vec<String>,
 }
+
+/// How a file was read, for the profile and the page.
+#[derive(Clone, Debug, Serialize)]
+pub struct LoadSummary {
+    pub format: crate::read::Format,
+    pub sheets: Vec<String>,
+    pub sheet: Option<String>,
+    /// The 1-based row or line of the header.
+    pub header_row: usize,
+    pub delimiter: Option<String>,
+    /// `point` or `comma`.
+    pub decimal: &'static str,
+    pub encoding: Option<&'static str>,
+    pub rows: usize,
+    pub columns: usize,
+    pub notes: Vec<String>,
+    pub warnings: Vec<String>,
+}
+
+impl LoadSummary {
+    pub fn of(l: &crate::read::Loaded) -> LoadSummary {
+        LoadSummary {
+            format: l.format,
+            sheets: l.sheets.clone(),
+            sheet: l.table.sheet.clone(),
+            header_row: l.header_row,
+            delimiter: l.delimiter.map(|d| if d == '\t' { "tab".to_string() } else { d.to_string() }),
+            decimal: match l.decimal {
+                crate::read::cells::Decimal::Point => "point",
+                crate::read::cells::Decimal::Comma => "comma",
+            },
+            encoding: l.encoding.map(|e| e.name()),
+            rows: l.table.n_rows(),
+            columns: l.table.columns.len(),
+            notes: l.notes.clone(),
+            warnings: l.table.warnings.clone(),
+        }
+    }
+}
+
+/// What `profile` reports: how the file was read, and each column.
+#[derive(Clone, Debug, Serialize)]
+pub struct ProfileReport {
+    pub load: LoadSummary,
+    pub rows: usize,
+    pub columns: Vec<crate::profile::ColumnProfile>,
+}

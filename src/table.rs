@@ -18,21 +18,36 @@ pub struct Table {
 pub struct Column {
     pub name: String,
     pub data: ColumnData,
+    /// Cells of a numeric or date column that were neither a value nor a
+    /// missing marker: (data row index, cell text), the first few of them.
+    /// They read as missing, and a model that uses the column refuses them.
+    pub invalid: Vec<(usize, String)>,
+    /// How many such cells there are in all.
+    pub invalid_count: usize,
+    /// Spreadsheet error values (#DIV/0!, #N/A, ...), read as missing.
+    pub errors: usize,
 }
 
-/// A column's cells: all numbers (NaN marks a missing cell) or text.
+impl Column {
+    pub fn new(name: impl Into<String>, data: ColumnData) -> Column {
+        Column { name: name.into(), data, invalid: Vec::new(), invalid_count: 0, errors: 0 }
+    }
+}
+
+/// A column's cells. NaN and `None` mark missing cells.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ColumnData {
     Numeric(Vec<f64>),
-    /// Text cells; `None` marks a missing cell. A column lands here when any
-    /// non-missing cell is not a number.
+    /// Dates as days since 1970-01-01 (a fraction for the time of day).
+    Date(Vec<f64>),
+    /// Text cells.
     Text(Vec<Option<String>>),
 }
 
 impl ColumnData {
     pub fn len(&self) -> usize {
         match self {
-            ColumnData::Numeric(v) => v.len(),
+            ColumnData::Numeric(v) | ColumnData::Date(v) => v.len(),
             ColumnData::Text(v) => v.len(),
         }
     }
@@ -43,7 +58,7 @@ impl ColumnData {
 
     pub fn is_missing(&self, row: usize) -> bool {
         match self {
-            ColumnData::Numeric(v) => v[row].is_nan(),
+            ColumnData::Numeric(v) | ColumnData::Date(v) => v[row].is_nan(),
             ColumnData::Text(v) => v[row].is_none(),
         }
     }
@@ -63,7 +78,7 @@ impl Table {
     pub fn from_numeric(columns: Vec<(String, Vec<f64>)>) -> Table {
         let n = columns.first().map_or(0, |c| c.1.len());
         Table {
-            columns: columns.into_iter().map(|(name, v)| Column { name, data: ColumnData::Numeric(v) }).collect(),
+            columns: columns.into_iter().map(|(name, v)| Column::new(name, ColumnData::Numeric(v))).collect(),
             source_rows: (2..n + 2).collect(),
             sheet: None,
             warnings: Vec::new(),

@@ -3,7 +3,7 @@
 //! fits, how it was computed, notes, cautions, and then every number again
 //! at full precision (17 significant digits) for scripts and checks.
 
-use crate::schema::FitReport;
+use crate::schema::{FitReport, ProfileReport};
 use std::fmt::Write;
 
 /// A number rounded to `digits` significant digits for reading.
@@ -182,6 +182,61 @@ pub fn render_fit(r: &FitReport) -> String {
         let _ = writeln!(s, "  {name}: {}", full(v));
     }
     s
+}
+
+/// Renders a column profile as text.
+pub fn render_profile(r: &ProfileReport) -> String {
+    let mut s = String::new();
+    let l = &r.load;
+    let source = match (&l.sheet, &l.delimiter) {
+        (Some(sheet), _) => format!("sheet \"{sheet}\" of {} ({})", plural(l.sheets.len(), "sheet"), l.sheets.join(", ")),
+        (None, Some(d)) => format!(
+            "text, {} encoding, cells separated by {}, decimal {}",
+            l.encoding.unwrap_or("unknown"),
+            if d == "tab" { "tabs".to_string() } else { format!("'{d}'") },
+            l.decimal
+        ),
+        (None, None) => "text".into(),
+    };
+    let _ = writeln!(s, "Columns of {source}");
+    let _ = writeln!(s, "  {} rows, {} columns; header on row {}", l.rows, l.columns, l.header_row);
+    for n in l.notes.iter().chain(&l.warnings) {
+        let _ = writeln!(s, "  - {n}");
+    }
+    s.push('\n');
+    let mut rows: Vec<[String; 6]> = vec![["column", "kind", "missing", "distinct", "skewness", "suggestion"].map(String::from)];
+    for c in &r.columns {
+        let kind = serde_json::to_string(&c.kind).unwrap_or_default().trim_matches('"').replace('_', " ");
+        rows.push([
+            c.name.clone(),
+            if c.kind_set_by_user { format!("{kind} (set)") } else { kind },
+            c.missing.to_string(),
+            c.distinct.to_string(),
+            c.skewness.map_or(String::new(), |g| short(g, 3)),
+            c.suggested_transform.as_ref().map_or(String::new(), |t| t.term.clone()),
+        ]);
+    }
+    let widths: Vec<usize> = (0..6).map(|j| rows.iter().map(|row| row[j].chars().count()).max().unwrap_or(0)).collect();
+    for row in &rows {
+        let mut line = String::from(" ");
+        for (j, cell) in row.iter().enumerate() {
+            let _ = if (2..5).contains(&j) { write!(line, " {:>w$}", cell, w = widths[j]) } else { write!(line, " {:<w$}", cell, w = widths[j]) };
+        }
+        let _ = writeln!(s, "{}", line.trim_end());
+    }
+    let _ = writeln!(s, "\nWhy");
+    for c in &r.columns {
+        let _ = writeln!(s, "  {}: {}", c.name, c.reason);
+    }
+    s
+}
+
+fn plural(n: usize, one: &str) -> String {
+    if n == 1 {
+        format!("1 {one}")
+    } else {
+        format!("{n} {one}s")
+    }
 }
 
 #[cfg(test)]

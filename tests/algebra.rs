@@ -186,7 +186,7 @@ fn aliased_terms_are_reported_by_name() {
     let t = random_table(7, 40, 2);
     let mut dup = t.clone();
     let x1 = dup.columns[1].data.clone();
-    dup.columns.push(plumbline::table::Column { name: "x1 copy".into(), data: x1 });
+    dup.columns.push(plumbline::table::Column::new("x1 copy", x1));
     let r = fit_table(&dup, "y", "x1, x2, \"x1 copy\"", true, FitOptions::default()).unwrap().report;
     assert_eq!(r.aliased, ["\"x1 copy\""], "labels are written as terms, quoted");
     assert!(r.coefficients[3].aliased && r.coefficients[3].estimate.is_nan());

@@ -72,7 +72,7 @@ fn unreadable_files_and_command_lines() {
     check(&["fit", "no/such/file.csv", "--response", "y"], 1, &["Could not open \"no/such/file.csv\""]);
     check(&["fit", file("empty.csv", b"").to_str().unwrap(), "--response", "y"], 1, &["The file is empty"]);
     check(&["fit", file("ragged.csv", b"y,x\n1,2\n3\n").to_str().unwrap(), "--response", "y"], 1, &["Line 3 has 1 cells but the header has 2"]);
-    check(&["fit", file("book.xlsx", b"PK\x03\x04").to_str().unwrap(), "--response", "y"], 1, &["workbook", "CSV"]);
+    check(&["fit", file("book.xlsx", b"PK\x03\x04").to_str().unwrap(), "--response", "y"], 1, &["looks like a workbook but could not be read"]);
     check(&["fit", g, "--response", "energy", "--terms", "floor_area +"], 2, &["In --terms", "character 12"]);
     check(&["fit", g, "--response", "energy", "--level", "95"], 2, &["--level must be a number between 0 and 1"]);
     check(&["fit", g, "--response", "energy", "--terms", "zone", "--frobnicate"], 2, &["There is no option \"--frobnicate\""]);

@@ -1,174 +1,183 @@
-//! Comma-separated text: a header row, then one record per row, quoted as
-//! in RFC 4180 (doubled quotes inside quotes, line breaks inside quotes,
-//! CRLF or LF line ends). A UTF-8 byte-order mark is skipped.
+//! Delimited text (CSV, TSV, semicolon- or pipe-separated, and blocks
+//! pasted from a spreadsheet) into a table.
+//!
+//! The text is walked twice and never held as a grid of strings: a first
+//! pass types each column, a second fills it. Memory beyond the input is
+//! the table itself (8 bytes per numeric cell).
 
-use super::ReadError;
-use crate::table::{is_missing_marker, parse_number, Column, ColumnData, Table};
+use super::cells::{decimal_vote, Decimal};
+use super::columns::{cell_warnings, find_header, header_names, ColumnFill, ColumnScan, RawCell};
+use super::text::{decode, sniff_delimiter, Records};
+use super::{Format, Loaded, ReadError, ReadOptions};
+use crate::table::Table;
 
-/// Reads comma-separated bytes into a table. Columns whose non-missing cells
-/// are all numbers become numeric; the rest stay text.
+/// Reads comma-separated (or sniffed) bytes with default options.
 pub fn read_csv(bytes: &[u8]) -> Result<Table, ReadError> {
-    let text = std::str::from_utf8(bytes).map_err(|e| ReadError::NotText { offset: e.valid_up_to() })?;
-    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut records = split_records(text, b',')?.into_iter().filter(|r| !is_blank(&r.cells));
-    let header = records.next().ok_or(ReadError::Empty)?;
-    let width = header.cells.len();
-    let mut names: Vec<String> = header.cells.iter().map(|s| s.trim().to_string()).collect();
-    let mut warnings = Vec::new();
-    name_columns(&mut names, &mut warnings);
+    read_delimited(bytes, &ReadOptions::default(), Format::Text).map(|l| l.table)
+}
 
-    let mut cells: Vec<Vec<String>> = vec![Vec::new(); width];
-    let mut source_rows = Vec::new();
-    for rec in records {
-        if rec.cells.len() != width {
-            return Err(ReadError::Ragged { line: rec.line, expected: width, found: rec.cells.len() });
+/// Records looked at to find the delimiter, the decimal mark and the header.
+const SNIFF_RECORDS: usize = 2000;
+
+/// Reads delimited text. `format` is `Text` for files and `Paste` for a
+/// block copied from a spreadsheet (tab-separated).
+pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
+    let limits = options.limits;
+    if bytes.iter().all(|b| b.is_ascii_whitespace()) {
+        return Err(ReadError::Empty);
+    }
+    let (text, encoding) = decode(bytes)?;
+    let text: &str = &text;
+    let delim = match (options.delimiter, format) {
+        (Some(d), _) => d,
+        (None, Format::Paste) => b'\t',
+        (None, _) => sniff_delimiter(text),
+    };
+
+    // The first records, for the decimal mark and the header.
+    let mut sample: Vec<(usize, Vec<String>)> = Vec::new();
+    for rec in Records::new(text, delim).take(SNIFF_RECORDS) {
+        let rec = rec?;
+        if !rec.is_blank() {
+            sample.push((rec.line, rec.cells.iter().map(|c| c.to_string()).collect()));
         }
-        for (j, c) in rec.cells.into_iter().enumerate() {
-            cells[j].push(c);
+    }
+    if sample.is_empty() {
+        return Err(ReadError::Empty);
+    }
+    let decimal = options.decimal.unwrap_or_else(|| {
+        let (mut point, mut comma) = (0usize, 0usize);
+        for (_, cells) in &sample {
+            for c in cells {
+                match decimal_vote(c) {
+                    Some(Decimal::Point) => point += 1,
+                    Some(Decimal::Comma) => comma += 1,
+                    None => {}
+                }
+            }
+        }
+        if comma > point {
+            Decimal::Comma
+        } else {
+            Decimal::Point
+        }
+    });
+    let raw_rows: Vec<Vec<RawCell>> = sample
+        .iter()
+        .take(40)
+        .map(|(_, cells)| cells.iter().map(|c| if c.trim().is_empty() { RawCell::Empty } else { RawCell::Text(c) }).collect())
+        .collect();
+    let header_index = match options.header_row {
+        Some(line) => sample.iter().position(|(l, _)| *l == line).ok_or(ReadError::NoSuchHeaderRow { row: line })?,
+        None => find_header(&raw_rows, decimal),
+    };
+    let header_line = sample[header_index].0;
+    let header_cells = &sample[header_index].1;
+    // Trailing empty header cells (a trailing delimiter) are not columns.
+    let named = header_cells.iter().rposition(|c| !c.trim().is_empty()).map_or(0, |i| i + 1);
+    let full_width = header_cells.len();
+    let mut warnings = Vec::new();
+    let header_raw: Vec<RawCell> = header_cells.iter().map(|c| RawCell::Text(c)).collect();
+
+    // Pass 1: shape and types.
+    let mut scans = vec![ColumnScan::default(); full_width];
+    let mut n_rows = 0usize;
+    for rec in Records::new(text, delim) {
+        let rec = rec?;
+        if rec.line <= header_line || rec.is_blank() {
+            continue;
+        }
+        check_width(&rec.cells, full_width, named, rec.line)?;
+        for (j, c) in rec.cells.iter().take(full_width).enumerate() {
+            scans[j].add(&raw(c), decimal);
+        }
+        n_rows += 1;
+        if n_rows.saturating_mul(full_width.max(1)) > limits.max_cells {
+            return Err(ReadError::TooManyCells { limit: limits.max_cells });
+        }
+    }
+    if n_rows == 0 {
+        return Err(ReadError::HeaderOnly);
+    }
+    // Columns past the named ones are kept only if they hold data.
+    let width = (named..full_width).rev().find(|&j| scans[j].has_data()).map_or(named, |j| j + 1).max(1);
+    let names = header_names(&header_raw, width, &mut warnings);
+    let mut fills: Vec<ColumnFill> = scans[..width]
+        .iter()
+        .zip(&names)
+        .map(|(s, name)| {
+            let (kind, warning) = s.decide(name);
+            warnings.extend(warning);
+            ColumnFill::new(kind, decimal, n_rows)
+        })
+        .collect();
+
+    // Pass 2: values.
+    let mut source_rows = Vec::with_capacity(n_rows);
+    for rec in Records::new(text, delim) {
+        let rec = rec?;
+        if rec.line <= header_line || rec.is_blank() {
+            continue;
+        }
+        let row = source_rows.len();
+        for (j, fill) in fills.iter_mut().enumerate() {
+            let cell = rec.cells.get(j).map_or(RawCell::Empty, |c| raw(c));
+            fill.push(&cell, row);
         }
         source_rows.push(rec.line);
     }
-    if source_rows.is_empty() {
-        return Err(ReadError::HeaderOnly);
+    let columns: Vec<_> = fills.into_iter().zip(names).map(|(f, n)| f.finish(n)).collect();
+    cell_warnings(&columns, &source_rows, &mut warnings);
+    let skipped_above = sample.iter().take(header_index).count();
+    let mut notes = Vec::new();
+    if skipped_above > 0 {
+        notes.push(format!(
+            "The header is on line {header_line}; {skipped_above} {} above it (a title or notes) {} skipped.",
+            if skipped_above == 1 { "line" } else { "lines" },
+            if skipped_above == 1 { "was" } else { "were" }
+        ));
     }
-    let columns = names.into_iter().zip(cells).map(|(name, raw)| Column { name, data: type_column(raw) }).collect();
-    Ok(Table { columns, source_rows, sheet: None, warnings })
+    Ok(Loaded {
+        table: Table { columns, source_rows, sheet: None, warnings },
+        format,
+        sheets: Vec::new(),
+        header_row: header_line,
+        delimiter: Some(delim as char),
+        decimal,
+        encoding: Some(encoding),
+        notes,
+    })
 }
 
-/// One record and the 1-based line it starts on.
-#[derive(Debug)]
-struct Record {
-    line: usize,
-    cells: Vec<String>,
-}
-
-fn is_blank(cells: &[String]) -> bool {
-    cells.iter().all(|c| c.trim().is_empty())
-}
-
-/// Splits text into records of cells, honouring quotes.
-fn split_records(text: &str, delim: u8) -> Result<Vec<Record>, ReadError> {
-    let b = text.as_bytes();
-    let mut out = Vec::new();
-    let mut line = 1;
-    let mut i = 0;
-    while i < b.len() {
-        let start_line = line;
-        let mut cells = Vec::new();
-        let mut cell: Vec<u8> = Vec::new();
-        loop {
-            if i < b.len() && b[i] == b'"' && cell.iter().all(|c| c.is_ascii_whitespace()) {
-                // A quoted cell.
-                cell.clear();
-                i += 1;
-                let quote_line = line;
-                loop {
-                    if i >= b.len() {
-                        return Err(ReadError::UnclosedQuote { line: quote_line });
-                    }
-                    match b[i] {
-                        b'"' if i + 1 < b.len() && b[i + 1] == b'"' => {
-                            cell.push(b'"');
-                            i += 2;
-                        }
-                        b'"' => {
-                            i += 1;
-                            break;
-                        }
-                        c => {
-                            if c == b'\n' {
-                                line += 1;
-                            }
-                            cell.push(c);
-                            i += 1;
-                        }
-                    }
-                }
-                // Anything between the closing quote and the delimiter is kept.
-                while i < b.len() && b[i] != delim && b[i] != b'\n' && b[i] != b'\r' {
-                    cell.push(b[i]);
-                    i += 1;
-                }
-            }
-            if i >= b.len() {
-                cells.push(bytes_to_string(&cell));
-                break;
-            }
-            match b[i] {
-                c if c == delim => {
-                    cells.push(bytes_to_string(&cell));
-                    cell.clear();
-                    i += 1;
-                }
-                b'\r' | b'\n' => {
-                    cells.push(bytes_to_string(&cell));
-                    if b[i] == b'\r' && i + 1 < b.len() && b[i + 1] == b'\n' {
-                        i += 1;
-                    }
-                    i += 1;
-                    line += 1;
-                    break;
-                }
-                c => {
-                    cell.push(c);
-                    i += 1;
-                }
-            }
-        }
-        out.push(Record { line: start_line, cells });
-    }
-    Ok(out)
-}
-
-fn bytes_to_string(b: &[u8]) -> String {
-    // The input was valid UTF-8 and we only split at ASCII bytes.
-    String::from_utf8_lossy(b).into_owned()
-}
-
-/// Names blank headers and makes duplicate names unique, with a warning.
-fn name_columns(names: &mut [String], warnings: &mut Vec<String>) {
-    for (j, name) in names.iter_mut().enumerate() {
-        if name.is_empty() {
-            *name = format!("column_{}", j + 1);
-            warnings.push(format!("Column {} has no name in the header; it is called {name}.", j + 1));
-        }
-    }
-    for j in 0..names.len() {
-        if names[..j].contains(&names[j]) {
-            let base = names[j].clone();
-            let mut k = 2;
-            while names.contains(&format!("{base}_{k}")) {
-                k += 1;
-            }
-            names[j] = format!("{base}_{k}");
-            warnings.push(format!("The header name \"{base}\" appears more than once; column {} is called {}.", j + 1, names[j]));
-        }
+fn raw<'a>(c: &'a str) -> RawCell<'a> {
+    if c.trim().is_empty() {
+        RawCell::Empty
+    } else {
+        RawCell::Text(c)
     }
 }
 
-/// A column is numeric when every cell is a number or a missing marker.
-fn type_column(raw: Vec<String>) -> ColumnData {
-    let mut nums = Vec::with_capacity(raw.len());
-    for s in &raw {
-        if is_missing_marker(s) {
-            nums.push(f64::NAN);
-        } else if let Some(v) = parse_number(s) {
-            nums.push(v);
-        } else {
-            return ColumnData::Text(
-                raw.into_iter().map(|s| if is_missing_marker(&s) { None } else { Some(s.trim().to_string()) }).collect(),
-            );
-        }
+/// A data row must have one cell per header column; extra cells are
+/// tolerated only when empty (a trailing delimiter).
+fn check_width(cells: &[std::borrow::Cow<str>], width: usize, named: usize, line: usize) -> Result<(), ReadError> {
+    let filled_to = cells.iter().rposition(|c| !c.trim().is_empty()).map_or(0, |i| i + 1);
+    if filled_to > width || (cells.len() < named && cells.len() != width) {
+        return Err(ReadError::Ragged { line, expected: width, found: cells.len() });
     }
-    ColumnData::Numeric(nums)
+    Ok(())
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::table::ColumnData;
+
+    fn load(input: &str) -> Loaded {
+        read_delimited(input.as_bytes(), &ReadOptions::default(), Format::Text).unwrap_or_else(|e| panic!("{input:?}: {e}"))
+    }
 
     fn check(input: &str, expected_names: &[&str], expected_rows: &[usize]) -> Table {
-        let t = read_csv(input.as_bytes()).unwrap_or_else(|e| panic!("{input:?}: {e}"));
+        let t = load(input).table;
         let names: Vec<&str> = t.columns.iter().map(|c| c.name.as_str()).collect();
         assert_eq!(names, expected_names, "names of {input:?}");
         assert_eq!(t.source_rows, expected_rows, "row numbers of {input:?}");
@@ -207,11 +216,48 @@ mod tests {
     }
 
     #[test]
+    fn semicolons_and_decimal_commas() {
+        let l = load("name;km;cost\nA;3,5;1.234,5\nB;4,25;12,0\n");
+        assert_eq!((l.delimiter, l.decimal), (Some(';'), Decimal::Comma));
+        assert_eq!(l.table.columns[1].data, ColumnData::Numeric(vec![3.5, 4.25]));
+        assert_eq!(l.table.columns[2].data, ColumnData::Numeric(vec![1234.5, 12.0]));
+    }
+
+    #[test]
+    fn titles_above_the_header_are_skipped() {
+        let l = load("Delivery log\n\nid,km\nD-1,3\nD-2,4\n");
+        assert_eq!(l.header_row, 3);
+        assert_eq!(l.table.source_rows, [4, 5]);
+        assert_eq!(l.notes.len(), 1, "{:?}", l.notes);
+    }
+
+    #[test]
+    fn a_stray_note_in_a_numeric_column_is_a_warning() {
+        let mut s = String::from("cost\n");
+        for i in 0..30 {
+            s.push_str(&format!("{i}\n"));
+        }
+        s.push_str("n/k\n");
+        let t = load(&s).table;
+        assert!(matches!(t.columns[0].data, ColumnData::Numeric(_)));
+        assert_eq!(t.columns[0].invalid, [(30, "n/k".to_string())]);
+        assert!(t.warnings[0].contains("row 32 holds \"n/k\""), "{:?}", t.warnings);
+    }
+
+    #[test]
     fn refusals_name_the_line() {
-        assert_eq!(read_csv(b""), Err(ReadError::Empty));
-        assert_eq!(read_csv(b"a,b\n"), Err(ReadError::HeaderOnly));
-        assert_eq!(read_csv(b"a,b\n1,2\n3\n"), Err(ReadError::Ragged { line: 3, expected: 2, found: 1 }));
-        assert_eq!(read_csv(b"a,b\n\"1,2\n"), Err(ReadError::UnclosedQuote { line: 2 }));
-        assert!(matches!(read_csv(b"a,b\n\xff\xfe,1\n"), Err(ReadError::NotText { .. })));
+        let r = |s: &[u8]| read_delimited(s, &ReadOptions::default(), Format::Text).map(|_| ());
+        assert_eq!(r(b""), Err(ReadError::Empty));
+        assert_eq!(r(b"a,b\n"), Err(ReadError::HeaderOnly));
+        assert_eq!(r(b"a,b\n1,2\n3,4,5\n"), Err(ReadError::Ragged { line: 3, expected: 2, found: 3 }));
+        assert_eq!(r(b"a,b\n1,2\n3\n"), Err(ReadError::Ragged { line: 3, expected: 2, found: 1 }));
+        assert_eq!(r(b"a,b\n\"1,2\n"), Err(ReadError::UnclosedQuote { line: 2 }));
+        assert!(matches!(r(b"a,b\n\x00\x01,1\n"), Err(ReadError::NotText { .. })));
+    }
+
+    #[test]
+    fn pasted_blocks_are_tab_separated_with_decimal_commas() {
+        let l = read_delimited(b"x\ty\r\n1,5\t2\r\n2,5\t3\r\n", &ReadOptions::default(), Format::Paste).unwrap();
+        assert_eq!(l.table.columns[0].data, ColumnData::Numeric(vec![1.5, 2.5]));
     }
 }

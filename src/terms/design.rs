@@ -68,8 +68,8 @@ pub enum DesignError {
     NotNumeric { column: String, row: usize, value: String },
     /// Every row has a missing value somewhere in the columns used.
     NoCompleteRows { missing: Vec<(String, usize)> },
-    /// The log of a term with values at or below zero.
-    LogOfNonPositive { term: String, rows: usize, first_row: usize },
+    /// log() or boxcox() of a term with values at or below zero.
+    NotPositive { function: &'static str, term: String, rows: usize, first_row: usize },
     /// The square root of a term with negative values.
     SqrtOfNegative { term: String, rows: usize, first_row: usize },
     /// A weight below zero.
@@ -111,9 +111,9 @@ impl fmt::Display for DesignError {
                 }
                 Ok(())
             }
-            DesignError::LogOfNonPositive { term, rows, first_row } => write!(
+            DesignError::NotPositive { function, term, rows, first_row } => write!(
                 f,
-                "log() needs values above zero, but {term} is zero or negative in {rows} {} (the first is row {first_row}).",
+                "{function}() needs values above zero, but {term} is zero or negative in {rows} {} (the first is row {first_row}).",
                 plural(*rows, "row", "rows")
             ),
             DesignError::SqrtOfNegative { term, rows, first_row } => write!(
@@ -162,7 +162,9 @@ fn uses_of(term: &Term, out: &mut Vec<(String, Use)>) {
     match term {
         Term::Column(c) => out.push((c.clone(), Use::Number)),
         Term::Cat { column, .. } => out.push((column.clone(), Use::Category)),
-        Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) => uses_of(t, out),
+        Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) | Term::BoxCox(t, _) | Term::YeoJohnson(t, _) => {
+            uses_of(t, out)
+        }
         Term::Product(a, b) => {
             uses_of(a, out);
             uses_of(b, out);
@@ -260,6 +262,13 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
 
     let ctx = EvalContext { table, rows: &rows };
     let mut warnings = Vec::new();
+    for (name, u) in &uses {
+        let is_date = matches!(table.column(name).map(|c| &c.data), Some(ColumnData::Date(_)));
+        let note = format!("Dates in \"{name}\" are used as a number: days since 1970-01-01.");
+        if *u == Use::Number && is_date && !warnings.contains(&note) {
+            warnings.push(note);
+        }
+    }
     let response_label = spec.response.to_string();
     let response = match ctx.eval(&spec.response)? {
         Value::Number(v) => v,
@@ -314,6 +323,9 @@ fn check_finite(ctx: &EvalContext, label: &str, v: &[DD]) -> Result<(), DesignEr
 /// Refuses a column used as a number if any non-missing cell is not a number.
 fn check_numeric(table: &Table, name: &str) -> Result<(), DesignError> {
     let col = table.column(name).expect("checked by the caller");
+    if let Some((i, value)) = col.invalid.first() {
+        return Err(DesignError::NotNumeric { column: name.into(), row: table.source_rows[*i], value: value.clone() });
+    }
     if let ColumnData::Text(cells) = &col.data {
         for (i, c) in cells.iter().enumerate() {
             if let Some(s) = c {
@@ -330,10 +342,11 @@ fn check_numeric(table: &Table, name: &str) -> Result<(), DesignError> {
     Ok(())
 }
 
-/// A numeric column's values (NaN where missing); text cells are parsed.
+/// A numeric column's values (NaN where missing); text cells are parsed,
+/// dates are days since 1970-01-01.
 fn numeric_values(table: &Table, name: &str) -> Vec<f64> {
     match &table.column(name).expect("checked by the caller").data {
-        ColumnData::Numeric(v) => v.clone(),
+        ColumnData::Numeric(v) | ColumnData::Date(v) => v.clone(),
         ColumnData::Text(cells) => {
             cells.iter().map(|c| c.as_deref().and_then(parse_number).unwrap_or(f64::NAN)).collect()
         }
@@ -397,16 +410,16 @@ impl EvalContext<'_> {
                 Value::Number(self.rows.iter().map(|&i| DD::from_f64(v[i])).collect())
             }
             Term::Log(t) => {
-                let v = self.number(t)?;
-                let bad: Vec<usize> = (0..v.len()).filter(|&i| v[i].hi <= 0.0 || v[i].hi.is_nan()).collect();
-                if let Some(&first) = bad.first() {
-                    return Err(DesignError::LogOfNonPositive {
-                        term: t.to_string(),
-                        rows: bad.len(),
-                        first_row: self.source_row(first),
-                    });
-                }
+                let v = self.positive(t, "log")?;
                 Value::Number(v.iter().map(|x| DD::from_f64(x.to_f64().ln())).collect())
+            }
+            Term::BoxCox(t, l) => {
+                let v = self.positive(t, "boxcox")?;
+                Value::Number(v.iter().map(|x| DD::from_f64(crate::profile::transform::boxcox(x.to_f64(), *l))).collect())
+            }
+            Term::YeoJohnson(t, l) => {
+                let v = self.number(t)?;
+                Value::Number(v.iter().map(|x| DD::from_f64(crate::profile::transform::yeojohnson(x.to_f64(), *l))).collect())
             }
             Term::Sqrt(t) => {
                 let v = self.number(t)?;
@@ -441,6 +454,21 @@ impl EvalContext<'_> {
         })
     }
 
+    /// The values of `t`, refused unless all are above zero.
+    fn positive(&self, t: &Term, function: &'static str) -> Result<Vec<DD>, DesignError> {
+        let v = self.number(t)?;
+        let bad: Vec<usize> = (0..v.len()).filter(|&i| v[i].hi <= 0.0 || v[i].hi.is_nan()).collect();
+        match bad.first() {
+            Some(&first) => Err(DesignError::NotPositive {
+                function,
+                term: t.to_string(),
+                rows: bad.len(),
+                first_row: self.source_row(first),
+            }),
+            None => Ok(v),
+        }
+    }
+
     fn number(&self, t: &Term) -> Result<Vec<DD>, DesignError> {
         match self.eval(t)? {
             Value::Number(v) => Ok(v),
@@ -461,6 +489,7 @@ impl EvalContext<'_> {
         // (sort key, label) of each used row.
         let keys: Vec<Level> = match &col.data {
             ColumnData::Numeric(v) => self.rows.iter().map(|&i| Level::Number(v[i])).collect(),
+            ColumnData::Date(v) => self.rows.iter().map(|&i| Level::Date(v[i])).collect(),
             ColumnData::Text(cells) => {
                 let texts: Vec<&str> = self.rows.iter().map(|&i| cells[i].as_deref().unwrap_or("")).collect();
                 if texts.iter().all(|s| parse_number(s).is_some()) {
@@ -508,6 +537,7 @@ impl EvalContext<'_> {
 #[derive(Clone, Debug, PartialEq, PartialOrd)]
 enum Level {
     Number(f64),
+    Date(f64),
     Text(String),
 }
 
@@ -515,6 +545,7 @@ impl Level {
     fn label(&self) -> String {
         match self {
             Level::Number(v) => format!("{v}"),
+            Level::Date(d) => crate::read::cells::format_date(*d),
             Level::Text(s) => s.clone(),
         }
     }
@@ -568,7 +599,7 @@ mod tests {
         let e = design(DATA, "y", "kind").unwrap_err();
         assert_eq!(e, DesignError::NotNumeric { column: "kind".into(), row: 2, value: "b".into() });
         let e = design("y,x\n1,2\n2,0\n3,-1\n", "y", "log(x)").unwrap_err();
-        assert_eq!(e, DesignError::LogOfNonPositive { term: "x".into(), rows: 2, first_row: 3 });
+        assert_eq!(e, DesignError::NotPositive { function: "log", term: "x".into(), rows: 2, first_row: 3 });
         assert!(e.to_string().contains("in 2 rows"), "{e}");
         let e = design("y,x\n1,\n,2\n", "y", "x").unwrap_err();
         assert_eq!(e, DesignError::NoCompleteRows { missing: vec![("y".into(), 1), ("x".into(), 1)] });

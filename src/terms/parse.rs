@@ -6,6 +6,7 @@
 //! factor  := atom ("^" K)?                 K = 2..10, a raw polynomial power
 //! atom    := NAME | "quoted name"
 //!          | log(term) | sqrt(term)
+//!          | boxcox(term, λ) | yeojohnson(term, λ)
 //!          | cat(NAME) | cat(NAME, ref=LEVEL)
 //!          | "(" term ")"
 //! ```
@@ -22,6 +23,10 @@ pub enum Term {
     Log(Box<Term>),
     Sqrt(Box<Term>),
     Power(Box<Term>, u32),
+    /// Box–Cox transform with a given λ.
+    BoxCox(Box<Term>, f64),
+    /// Yeo–Johnson transform with a given λ.
+    YeoJohnson(Box<Term>, f64),
     /// Treatment-coded dummies of a column; `reference` is the omitted level.
     Cat { column: String, reference: Option<String> },
     Product(Box<Term>, Box<Term>),
@@ -60,7 +65,9 @@ impl Term {
                     out.push(c)
                 }
             }
-            Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) => t.collect_columns(out),
+            Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) | Term::BoxCox(t, _) | Term::YeoJohnson(t, _) => {
+                t.collect_columns(out)
+            }
             Term::Product(a, b) => {
                 a.collect_columns(out);
                 b.collect_columns(out);
@@ -73,7 +80,9 @@ impl Term {
         match self {
             Term::Cat { .. } => true,
             Term::Column(_) => false,
-            Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) => t.has_category(),
+            Term::Log(t) | Term::Sqrt(t) | Term::Power(t, _) | Term::BoxCox(t, _) | Term::YeoJohnson(t, _) => {
+                t.has_category()
+            }
             Term::Product(a, b) => a.has_category() || b.has_category(),
         }
     }
@@ -83,7 +92,7 @@ impl Term {
 pub fn quote_name(name: &str) -> String {
     let bare = name.chars().next().is_some_and(|c| c.is_alphabetic() || c == '_')
         && name.chars().all(|c| c.is_alphanumeric() || c == '_' || c == '.')
-        && !matches!(name, "log" | "sqrt" | "cat");
+        && !matches!(name, "log" | "sqrt" | "cat" | "boxcox" | "yeojohnson");
     if bare {
         name.to_string()
     } else {
@@ -98,6 +107,8 @@ impl fmt::Display for Term {
             Term::Column(c) => write!(f, "{}", quote_name(c)),
             Term::Log(t) => write!(f, "log({t})"),
             Term::Sqrt(t) => write!(f, "sqrt({t})"),
+            Term::BoxCox(t, l) => write!(f, "boxcox({t}, {l})"),
+            Term::YeoJohnson(t, l) => write!(f, "yeojohnson({t}, {l})"),
             Term::Power(t, k) => match **t {
                 Term::Product(..) => write!(f, "({t})^{k}"),
                 _ => write!(f, "{t}^{k}"),
@@ -339,6 +350,28 @@ impl Parser {
                         self.expect(Tok::RParen, "a closing ')'")?;
                         Ok(if s == "log" { Term::Log(Box::new(inner)) } else { Term::Sqrt(Box::new(inner)) })
                     }
+                    "boxcox" | "yeojohnson" => {
+                        self.bump();
+                        let inner = self.term()?;
+                        if inner.has_category() {
+                            return Err(self.error(&format!("{s}() needs a number, not a category")));
+                        }
+                        self.expect(Tok::Comma, &format!("a comma and then λ, as in {s}(x, 0.5)"))?;
+                        let lambda = match self.bump() {
+                            Tok::Number(n) => n.parse::<f64>().ok().filter(|v| v.is_finite() && v.abs() <= 100.0),
+                            _ => None,
+                        };
+                        let Some(lambda) = lambda else {
+                            self.at -= 1;
+                            return Err(self.error("λ must be a number between -100 and 100"));
+                        };
+                        self.expect(Tok::RParen, "a closing ')'")?;
+                        Ok(if s == "boxcox" {
+                            Term::BoxCox(Box::new(inner), lambda)
+                        } else {
+                            Term::YeoJohnson(Box::new(inner), lambda)
+                        })
+                    }
                     "cat" => {
                         self.bump();
                         let column = match self.bump() {
@@ -371,7 +404,7 @@ impl Parser {
                         Ok(Term::Cat { column, reference })
                     }
                     other => Err(self.error(&format!(
-                        "there is no function called {other}(); the functions are log(), sqrt() and cat()"
+                        "there is no function called {other}(); the functions are log(), sqrt(), boxcox(), yeojohnson() and cat()"
                     ))),
                 }
             }
@@ -422,6 +455,7 @@ mod tests {
         check("a*b, cat(g)*x, log(a)*b^2", &["a*b", "cat(g)*x", "log(a)*b^2"]);
         check("\"floor area (m2)\", \"say \"\"hi\"\"\"", &["\"floor area (m2)\"", "\"say \"\"hi\"\"\""]);
         check("(a*b)^2", &["(a*b)^2"]);
+        check("boxcox(area, 0.25), yeojohnson(x, -1.5)", &["boxcox(area, 0.25)", "yeojohnson(x, -1.5)"]);
     }
 
     #[test]
@@ -436,5 +470,7 @@ mod tests {
         check_error("cat(g)^2", 6, "category cannot be raised");
         check_error("log(cat(g))", 10, "needs a number");
         check_error("2019", 0, "starts with a digit");
+        check_error("boxcox(x)", 8, "a comma and then λ");
+        check_error("boxcox(x, big)", 10, "λ must be a number");
     }
 }

@@ -35,6 +35,7 @@ const el = {
   result: $('result'),
   staleNote: $('stale-note'),
   modelLine: $('model-line'),
+  rowsLine: $('rows-line'),
   coefTable: $('coef-table'),
   copyButton: $('copy-button'),
   copyStatus: $('copy-status'),
@@ -52,6 +53,7 @@ const state = {
   data: null, // {name, bytes, columns, rowCount, preview}
   report: null,
   fitSeq: 0,
+  fitsDone: 0, // fits answered, good or bad (for the tests)
 };
 
 // ---------------------------------------------------------------- messages
@@ -158,7 +160,8 @@ async function loadBytes(name, bytes) {
   }
   if (check.error) {
     const kept = state.data ? ` The data already open ("${state.data.name}") are still loaded.` : '';
-    showMessage(el.dataMessage, `"${name}" could not be opened. ${check.error}${kept}`);
+    const why = check.error.replace(/^Could not read the file:\s*/, '');
+    showMessage(el.dataMessage, `"${name}" could not be opened: ${why}${kept}`);
     return false;
   }
   const p = readPreview(bytes);
@@ -169,8 +172,15 @@ async function loadBytes(name, bytes) {
   return true;
 }
 
+const WORKBOOK = /\.(xlsx|xlsm|xlsb|xls|ods)$/i;
+
 async function loadFile(file) {
   if (!file) return;
+  if (WORKBOOK.test(file.name)) {
+    const kept = state.data ? ` The data already open ("${state.data.name}") are still loaded.` : '';
+    showMessage(el.dataMessage, `"${file.name}" is a workbook; this version reads comma-separated text (CSV) only. Save the sheet as CSV and open that.${kept}`);
+    return;
+  }
   let buf;
   try {
     buf = await file.arrayBuffer();
@@ -296,6 +306,8 @@ async function runFit() {
     return;
   }
   const seq = ++state.fitSeq;
+  clearMessage(el.modelMessage);
+  clearMessage(el.dataMessage);
   el.fitButton.disabled = true;
   el.form.setAttribute('aria-busy', 'true');
   el.fitStatus.textContent = 'Fitting…';
@@ -319,10 +331,18 @@ async function runFit() {
   }
   clearMessage(el.modelMessage);
   renderResult(answer.ok);
+  revealResult();
   finishBusy(`Fitted: ${plural(answer.ok.coefficients.length, 'coefficient')}, ${answer.ok.n} rows used.`);
 }
 
+/** Brings the result into view when its top is below the window. */
+function revealResult() {
+  const top = el.result.getBoundingClientRect().top;
+  if (top > window.innerHeight * 0.6) el.result.scrollIntoView({ block: 'start' });
+}
+
 function finishBusy(status) {
+  state.fitsDone += 1;
   el.fitButton.disabled = false;
   el.form.removeAttribute('aria-busy');
   el.fitStatus.textContent = status;
@@ -424,6 +444,19 @@ function renderResult(r) {
     r.weights ? ` Weighted by ${r.weights}.` : '',
   );
 
+  el.rowsLine.textContent = '';
+  const used = document.createElement('strong');
+  used.textContent = `${r.n} of ${r.n + r.n_dropped} rows used.`;
+  el.rowsLine.append(used);
+  if (r.n_dropped > 0) {
+    const parts = r.dropped.map((d) => {
+      const more = d.count > d.first_rows.length ? ', …' : '';
+      const where = d.first_rows.length ? ` (file ${d.first_rows.length === 1 ? 'row' : 'rows'} ${d.first_rows.join(', ')}${more})` : '';
+      return `${plural(d.count, 'row')} with ${d.reason.replace(/^missing value in /, 'a missing value in ')}${where}`;
+    });
+    el.rowsLine.append(` Left out: ${parts.join('; ')}.`);
+  }
+
   const lowLabel = `Low (${lvl})`;
   const highLabel = `High (${lvl})`;
   const body = tableHead(el.coefTable, ['Term', ...COEF_COLUMNS.map((c) => c[1]), lowLabel, highLabel]);
@@ -505,20 +538,7 @@ const SOLVER_WORDS = {
 function renderFigures(r) {
   const dl = el.fitFigures;
   dl.textContent = '';
-  const total = r.n + r.n_dropped;
-  figure(dl, 'Rows used', `${r.n} of ${total}`);
-  if (r.n_dropped > 0) {
-    const ul = document.createElement('ul');
-    ul.className = 'dropped';
-    for (const d of r.dropped) {
-      const more = d.count > d.first_rows.length ? ', …' : '';
-      const where = d.first_rows.length ? ` (file ${d.first_rows.length === 1 ? 'row' : 'rows'} ${d.first_rows.join(', ')}${more})` : '';
-      addItem(ul, `${d.reason}: ${plural(d.count, 'row')}${where}`);
-    }
-    figure(dl, 'Rows left out', ul);
-  } else {
-    figure(dl, 'Rows left out', 'none');
-  }
+  figure(dl, 'Rows used', `${r.n} of ${r.n + r.n_dropped}`);
   numFigure(dl, 'R²', r.r_squared, 5, r.r_squared_kind === 'uncentred' ? '(about zero, as there is no intercept)' : '');
   numFigure(dl, 'Adjusted R²', r.adj_r_squared, 5);
   numFigure(dl, 'Residual standard error', r.residual_std_error, 5, `on ${r.df_residual} degrees of freedom`);
@@ -589,6 +609,12 @@ el.form.addEventListener('submit', (e) => {
   runFit();
 });
 el.copyButton.addEventListener('click', () => { copyTable(); });
+el.terms.addEventListener('keydown', (e) => {
+  if (e.key === 'Enter' && !e.shiftKey && !e.isComposing) {
+    e.preventDefault();
+    el.form.requestSubmit();
+  }
+});
 for (const c of [el.responseColumn, el.responseTransform]) {
   c.addEventListener('change', () => { updateResponsePreview(); markStale(); });
 }
@@ -627,6 +653,14 @@ window.plumblineTest = {
   },
   crashWorker() {
     engine.crashForTest();
+  },
+  /** Resolves with the error the page got when the worker answered as a panic does. */
+  pretendPanic() {
+    return engine.pretendPanicForTest().then(() => null, (e) => ({ name: e.name, kind: e.kind, message: e.message }));
+  },
+  /** How many fits started from the page have been answered. */
+  fitsDone() {
+    return state.fitsDone;
   },
   copiedText() {
     return state.report ? tableAsText(state.report) : null;

@@ -172,6 +172,11 @@ export class Engine {
     return { ok: true };
   }
 
+  /** Test hook: the worker answers as if the wasm had panicked. */
+  pretendPanicForTest() {
+    return this.send({ type: 'pretend-panic' });
+  }
+
   /** Test hook: makes the worker throw, as a crash would. */
   crashForTest() {
     if (this.worker) this.worker.postMessage({ type: 'die', id: 0 });

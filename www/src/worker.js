@@ -12,6 +12,7 @@ import { initSync, fit_csv, last_panic } from './plumbline.js';
 //                                                  | {type: 'panic', id, message}
 //   {type: 'die', id}  (test hook) throws outside any handler, so that the
 //                      page sees the worker's error event.
+//   {type: 'pretend-panic', id}  (test hook) answers as a panic would.
 let ready = false;
 
 function panicMessage(e) {
@@ -51,6 +52,11 @@ self.onmessage = (event) => {
         return;
       }
       self.postMessage({ type: 'result', id: msg.id, json });
+      return;
+    }
+    case 'pretend-panic': {
+      // Test hook: answers as a panic would, without one.
+      self.postMessage({ type: 'panic', id: msg.id, message: 'plumbline stopped on an internal error, which is a bug: (a pretend panic from the test hook)' });
       return;
     }
     case 'die': {

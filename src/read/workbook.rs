@@ -1,0 +1,152 @@
+//! Workbooks (xlsx, xlsm, xlsb, xls, ods) through calamine: one sheet into
+//! a table, with the header found below any title rows.
+
+use super::cells::Decimal;
+use super::columns::{cell_warnings, find_header, header_names, ColumnFill, ColumnScan, RawCell};
+use super::{Format, Loaded, ReadError, ReadOptions};
+use crate::table::Table;
+use calamine::{open_workbook_auto_from_rs, Data, Reader};
+use std::io::Cursor;
+
+/// The sheets of a workbook, in order.
+pub fn list_sheets(bytes: &[u8]) -> Result<Vec<String>, ReadError> {
+    let wb = open(bytes)?;
+    Ok(wb.sheet_names())
+}
+
+fn open(bytes: &[u8]) -> Result<calamine::Sheets<Cursor<&[u8]>>, ReadError> {
+    open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| ReadError::Workbook { detail: e.to_string() })
+}
+
+/// Days since 1970-01-01 of a spreadsheet date-time cell.
+fn date_days(d: &calamine::ExcelDateTime) -> Option<f64> {
+    let dt = d.as_datetime()?;
+    Some(dt.and_utc().timestamp_millis() as f64 / 86_400_000.0)
+}
+
+fn raw(cell: &Data) -> RawCell<'_> {
+    match cell {
+        Data::Empty => RawCell::Empty,
+        Data::Int(i) => RawCell::Number(*i as f64),
+        Data::Float(f) => RawCell::Number(*f),
+        Data::Bool(b) => RawCell::Bool(*b),
+        Data::String(s) => RawCell::Text(s),
+        Data::DateTimeIso(s) | Data::DurationIso(s) => RawCell::Text(s),
+        Data::DateTime(d) => {
+            if d.is_duration() {
+                RawCell::Number(d.as_f64())
+            } else {
+                date_days(d).map_or(RawCell::Error, RawCell::Date)
+            }
+        }
+        Data::Error(_) => RawCell::Error,
+    }
+}
+
+/// Reads one sheet (the first with data unless `options.sheet` names one).
+pub fn read_workbook(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
+    let limits = options.limits;
+    super::zip_guard(bytes, limits)?;
+    let mut wb = open(bytes)?;
+    let sheets = wb.sheet_names();
+    if sheets.is_empty() {
+        return Err(ReadError::Empty);
+    }
+    let mut chosen = None;
+    match &options.sheet {
+        Some(name) => {
+            if !sheets.contains(name) {
+                return Err(ReadError::NoSuchSheet { sheet: name.clone(), sheets: sheets.clone() });
+            }
+            let range = wb.worksheet_range(name).map_err(|e| ReadError::Workbook { detail: e.to_string() })?;
+            chosen = Some((name.clone(), range));
+        }
+        None => {
+            for name in &sheets {
+                let range = wb.worksheet_range(name).map_err(|e| ReadError::Workbook { detail: e.to_string() })?;
+                if !range.is_empty() {
+                    chosen = Some((name.clone(), range));
+                    break;
+                }
+            }
+        }
+    }
+    let Some((sheet, range)) = chosen else {
+        return Err(ReadError::Empty);
+    };
+    let (h, w) = range.get_size();
+    if h.saturating_mul(w) > limits.max_cells {
+        return Err(ReadError::TooManyCells { limit: limits.max_cells });
+    }
+    let (start_row, _) = range.start().unwrap_or((0, 0));
+    // Non-blank rows with their 1-based sheet row numbers.
+    let rows: Vec<(usize, &[Data])> = range
+        .rows()
+        .enumerate()
+        .filter(|(_, r)| r.iter().any(|c| !raw(c).is_empty()))
+        .map(|(i, r)| (start_row as usize + i + 1, r))
+        .collect();
+    if rows.is_empty() {
+        return Err(ReadError::Empty);
+    }
+    let decimal = Decimal::Point;
+    let sample: Vec<Vec<RawCell>> = rows.iter().take(40).map(|(_, r)| r.iter().map(raw).collect()).collect();
+    let header_index = match options.header_row {
+        Some(row) => rows.iter().position(|(n, _)| *n == row).ok_or(ReadError::NoSuchHeaderRow { row })?,
+        None => find_header(&sample, decimal),
+    };
+    let header_row = rows[header_index].0;
+    let header: Vec<RawCell> = rows[header_index].1.iter().map(raw).collect();
+    let data = &rows[header_index + 1..];
+    if data.is_empty() {
+        return Err(ReadError::HeaderOnly);
+    }
+    let full_width = w;
+    let mut scans = vec![ColumnScan::default(); full_width];
+    for (_, r) in data {
+        for (j, c) in r.iter().enumerate() {
+            scans[j].add(&raw(c), decimal);
+        }
+    }
+    // Columns with neither a name nor data are not columns.
+    let keep: Vec<usize> = (0..full_width).filter(|&j| !header.get(j).is_none_or(RawCell::is_empty) || scans[j].has_data()).collect();
+    let mut warnings = Vec::new();
+    let kept_header: Vec<RawCell> = keep.iter().map(|&j| header.get(j).cloned().unwrap_or(RawCell::Empty)).collect();
+    let names = header_names(&kept_header, keep.len(), &mut warnings);
+    let mut fills: Vec<ColumnFill> = keep
+        .iter()
+        .zip(&names)
+        .map(|(&j, name)| {
+            let (kind, warning) = scans[j].decide(name);
+            warnings.extend(warning);
+            ColumnFill::new(kind, decimal, data.len())
+        })
+        .collect();
+    let mut source_rows = Vec::with_capacity(data.len());
+    for (row, (n, r)) in data.iter().enumerate() {
+        for (fill, &j) in fills.iter_mut().zip(&keep) {
+            fill.push(&r.get(j).map_or(RawCell::Empty, raw), row);
+        }
+        source_rows.push(*n);
+    }
+    let columns: Vec<_> = fills.into_iter().zip(names).map(|(f, n)| f.finish(n)).collect();
+    cell_warnings(&columns, &source_rows, &mut warnings);
+    let mut notes = Vec::new();
+    if header_index > 0 {
+        notes.push(format!(
+            "The header is on row {header_row} of sheet \"{sheet}\"; {header_index} {} above it (a title or notes) {} skipped.",
+            if header_index == 1 { "row" } else { "rows" },
+            if header_index == 1 { "was" } else { "were" }
+        ));
+    }
+    Ok(Loaded {
+        table: Table { columns, source_rows, sheet: Some(sheet), warnings },
+        format,
+        sheets,
+        header_row,
+        delimiter: None,
+        decimal,
+        encoding: None,
+        notes,
+    })
+}

@@ -1,0 +1,548 @@
+// Browser tests of dist/plumbline.html in Chromium, driven by playwright-core.
+//
+//   bash www/build.sh && cargo build --release && node tests/browser/run.mjs
+//
+// Environment: CHROMIUM (default /usr/bin/chromium), HEADED=1 to watch.
+// Exits non-zero when a test fails. Screenshots go to tests/browser/screenshots/.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { createRequire } from 'node:module';
+import { execFileSync } from 'node:child_process';
+import { existsSync, mkdirSync, readFileSync, readdirSync, statSync } from 'node:fs';
+import { isDeepStrictEqual } from 'node:util';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
+import { randomBytes } from 'node:crypto';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const root = resolve(here, '..', '..');
+const pagePath = join(root, 'dist', 'plumbline.html');
+const cliPath = join(root, 'target', 'release', 'plumbline');
+const shots = join(here, 'screenshots');
+const nistDir = join(root, 'tests', 'data', 'nist-strd-lls');
+const demoCsv = join(root, 'demo-data', 'building-energy.csv');
+const chromiumPath = process.env.CHROMIUM || '/usr/bin/chromium';
+
+const missing = [];
+if (!existsSync(pagePath)) missing.push(`${pagePath} (run: bash www/build.sh)`);
+if (!existsSync(cliPath)) missing.push(`${cliPath} (run: cargo build --release)`);
+if (!existsSync(chromiumPath)) missing.push(`${chromiumPath} (set CHROMIUM to a Chromium binary)`);
+if (!existsSync(join(root, 'www', 'node_modules', 'playwright-core'))) missing.push('www/node_modules/playwright-core (run: npm ci --prefix www)');
+if (missing.length) {
+  console.error(`tests/browser/run.mjs: missing:\n  ${missing.join('\n  ')}\nBuild first: bash www/build.sh && cargo build --release`);
+  process.exit(1);
+}
+
+// A build older than its sources would test old code: say so and stop.
+function newestMtime(dir, keep) {
+  let newest = { t: 0, file: '' };
+  for (const e of readdirSync(dir, { withFileTypes: true })) {
+    const p = join(dir, e.name);
+    if (e.isDirectory()) {
+      const n = newestMtime(p, keep);
+      if (n.t > newest.t) newest = n;
+    } else if (keep(e.name)) {
+      const t = statSync(p).mtimeMs;
+      if (t > newest.t) newest = { t, file: p };
+    }
+  }
+  return newest;
+}
+const rustSources = [newestMtime(join(root, 'src'), (n) => n.endsWith('.rs')),
+  { t: statSync(join(root, 'Cargo.toml')).mtimeMs, file: join(root, 'Cargo.toml') }].sort((a, b) => b.t - a.t)[0];
+const pageSources = [rustSources, newestMtime(join(root, 'www', 'src'), () => true),
+  newestMtime(join(root, 'www', 'tools'), () => true)].sort((a, b) => b.t - a.t)[0];
+const stale = [];
+if (statSync(cliPath).mtimeMs < rustSources.t) stale.push(`${cliPath} is older than ${rustSources.file} (run: cargo build --release)`);
+if (statSync(pagePath).mtimeMs < pageSources.t) stale.push(`${pagePath} is older than ${pageSources.file} (run: bash www/build.sh)`);
+if (stale.length) {
+  console.error(`tests/browser/run.mjs: out of date:\n  ${stale.join('\n  ')}`);
+  process.exit(1);
+}
+
+const require = createRequire(join(root, 'www', 'package.json'));
+const { chromium } = require('playwright-core');
+
+const pageUrl = pathToFileURL(pagePath).href;
+const DEMO_RESPONSE = 'log(energy_mwh)';
+const DEMO_TERMS = 'log(floor_area_m2), cat(climate_zone), mean_outdoor_temp_c, mean_outdoor_temp_c^2, cat(hvac_type), retrofit, building_age';
+const COEF_FIELDS = ['estimate', 'std_error', 't', 'p_value', 'ci_low', 'ci_high'];
+
+mkdirSync(shots, { recursive: true });
+
+let browser;
+let context;
+let page;
+const seenRequests = new Set(); // the Request objects, as page and context both report them
+const requests = []; // every request seen, page and workers alike
+const dataRequests = []; // data: URLs, kept apart (not network)
+const dialogs = [];
+const pageErrors = [];
+const workers = [];
+
+function recordRequest(req) {
+  if (seenRequests.has(req)) return;
+  seenRequests.add(req);
+  const url = req.url();
+  if (url.startsWith('data:')) dataRequests.push(url.slice(0, 60));
+  else requests.push(url);
+}
+
+/** Requests that are not the page itself (with or without a fragment). */
+function foreignRequests() {
+  return [...new Set(requests)].filter((u) => u.split('#')[0] !== pageUrl);
+}
+
+async function shot(name) {
+  await page.screenshot({ path: join(shots, `${name}.png`), fullPage: true });
+}
+
+function cliFit(file, { response, terms, intercept = true, level, hc3 = false }) {
+  const args = ['fit', file, '--response', response, '--terms', terms, '--json'];
+  if (!intercept) args.push('--no-intercept');
+  if (level !== undefined) args.push('--level', String(level));
+  if (hc3) args.push('--hc3');
+  return JSON.parse(execFileSync(cliPath, args, { encoding: 'utf8', maxBuffer: 64 << 20 }));
+}
+
+/** Log relative error: digits of agreement of a with b (absolute when b = 0). */
+function lre(a, b) {
+  if (a === b) return Infinity;
+  if (typeof a !== 'number' || typeof b !== 'number') return -Infinity;
+  const err = b === 0 ? Math.abs(a) : Math.abs(a - b) / Math.abs(b);
+  return err === 0 ? Infinity : -Math.log10(err);
+}
+
+function relClose(a, b, tol) {
+  if (a === b) return true;
+  if (typeof a !== 'number' || typeof b !== 'number') return false;
+  const scale = Math.max(Math.abs(b), Number.MIN_VALUE);
+  return Math.abs(a - b) / scale <= tol;
+}
+
+/** The numbers in which two results differ: how many, the least LRE and where. */
+function differences(a, b) {
+  const out = { count: 0, least: Infinity, where: [] };
+  const walk = (x, y, path) => {
+    if (x && y && typeof x === 'object' && typeof y === 'object') {
+      for (const k of new Set([...Object.keys(x), ...Object.keys(y)])) walk(x[k], y[k], path ? `${path}.${k}` : k);
+    } else if (!isDeepStrictEqual(x, y)) {
+      out.count++;
+      out.least = Math.min(out.least, lre(x, y));
+      const field = path.replace(/\.\d+\./g, '.').replace(/^coefficients\.|^hc3\./, '');
+      if (!out.where.includes(field)) out.where.push(field);
+    }
+  };
+  walk(a, b, '');
+  return out;
+}
+
+/** A value as the page holds it in data-full: '' is JSON null. */
+function fromFull(s) {
+  if (s === '') return null;
+  if (s === 'Infinity' || s === '-Infinity') return s;
+  return Number(s);
+}
+
+async function openFresh(hash = '') {
+  await page.goto(pageUrl + hash);
+  // Ready when the worker answers a tiny fit through the test hook.
+  const r = await page.evaluate(() => window.plumblineTest.fit('y,x\n1,1\n2,3\n4,4\n', { response: 'y', terms: 'x' }));
+  assert.ok(r.ok, `the worker answers a tiny fit: ${JSON.stringify(r)}`);
+}
+
+/** Runs a page action that starts a fit and waits until the page has its answer. */
+async function afterFit(action) {
+  const before = await page.evaluate(() => window.plumblineTest.fitsDone());
+  await action();
+  await page.waitForFunction((n) => window.plumblineTest.fitsDone() > n, before, { timeout: 20000 });
+}
+
+async function assertCoefRows(n) {
+  assert.ok(await page.isVisible('#coef-table'), 'the result is shown');
+  assert.equal(await page.locator('#coef-table tbody tr').count(), n, `${n} coefficient rows`);
+}
+
+async function coefTableFromPage() {
+  return page.$$eval('#coef-table tbody tr', (rows) => rows.map((tr) => ({
+    term: tr.querySelector('th').textContent,
+    cells: [...tr.querySelectorAll('td.num')].map((td) => ({ shown: td.textContent, full: td.dataset.full, title: td.title })),
+  })));
+}
+
+async function visibleText(selector) {
+  const loc = page.locator(selector);
+  await loc.waitFor({ state: 'visible', timeout: 15000 });
+  return loc.textContent();
+}
+
+before(async () => {
+  browser = await chromium.launch({
+    executablePath: chromiumPath,
+    headless: !process.env.HEADED,
+    args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync'],
+  });
+  context = await browser.newContext({ viewport: { width: 1366, height: 768 } });
+  context.on('request', recordRequest);
+  page = await context.newPage();
+  page.on('request', recordRequest);
+  page.on('worker', (w) => {
+    workers.push(w.url().slice(0, 40));
+  });
+  page.on('dialog', (d) => {
+    dialogs.push(`${d.type()}: ${d.message()}`);
+    d.dismiss().catch(() => {});
+  });
+  page.on('pageerror', (e) => pageErrors.push(e.message));
+});
+
+after(async () => {
+  if (browser) await browser.close();
+});
+
+test('the page loads, starts its worker and asks for nothing but itself', { timeout: 60000 }, async () => {
+  await openFresh();
+  await shot('01-loaded');
+  assert.deepEqual(foreignRequests(), [], 'no request other than the page');
+  assert.ok(workers.length >= 1 && workers.every((u) => u.startsWith('data:text/javascript')), `the worker comes from a data: URL (${workers.join(', ')})`);
+  assert.deepEqual(pageErrors, [], 'no script error');
+});
+
+test('control: the request recorder sees a request made inside a worker', { timeout: 30000 }, async () => {
+  // In a context of its own, so that its request does not count against the page.
+  const ctl = await browser.newContext();
+  const seen = [];
+  ctl.on('request', (r) => seen.push(r.url()));
+  try {
+    const p = await ctl.newPage();
+    p.on('request', (r) => seen.push(r.url()));
+    await p.goto(pathToFileURL(join(root, 'www', 'package.json')).href);
+    await p.evaluate(() => {
+      const code = "fetch('http://127.0.0.1:9/worker-control').catch(() => {});";
+      window.controlWorker = new Worker(`data:text/javascript,${encodeURIComponent(code)}`, { type: 'module' });
+    });
+    for (let i = 0; i < 50 && !seen.some((u) => u.includes('worker-control')); i++) await p.waitForTimeout(100);
+  } finally {
+    await ctl.close();
+  }
+  assert.ok(seen.some((u) => u.includes('worker-control')), `a worker's request is recorded (saw ${seen.join(', ')})`);
+});
+
+test('the CSP meta is there, with connect-src \'none\' and no remote source', { timeout: 30000 }, async () => {
+  const csp = await page.$eval('meta[http-equiv="Content-Security-Policy"]', (m) => m.getAttribute('content'));
+  assert.match(csp, /connect-src 'none'/);
+  assert.match(csp, /default-src 'none'/);
+  assert.doesNotMatch(csp, /https?:|wss?:|\*/, 'no remote or wildcard source');
+  const external = await page.$$eval('[src], [href]', (els) => els
+    .map((e) => e.getAttribute('src') || e.getAttribute('href'))
+    .filter((u) => !(u.startsWith('#') || u.startsWith('data:'))));
+  assert.deepEqual(external, [], 'no element loads anything from elsewhere');
+  const html = readFileSync(pagePath, 'utf8');
+  assert.doesNotMatch(html.replace(/<script type="application\/octet-stream"[^>]*>[^<]*<\/script>/, ''), /\beval\(|new Function\(/, 'no eval');
+});
+
+test('the demo opens with one click and its fit equals the native CLI', { timeout: 60000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  await assertCoefRows(12);
+  await page.screenshot({ path: join(shots, '02a-demo-what-the-window-shows-1366x768.png') });
+  await shot('02-demo-fitted');
+
+  assert.equal(await page.inputValue('#response-column'), 'energy_mwh');
+  assert.equal(await page.inputValue('#response-transform'), 'log');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS);
+  assert.match(await page.textContent('#data-facts'), /240 rows of data, 10 columns/);
+
+  const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  const rows = await coefTableFromPage();
+  assert.equal(rows.length, cli.coefficients.length, 'one row per coefficient');
+  let compared = 0;
+  rows.forEach((row, i) => {
+    const c = cli.coefficients[i];
+    assert.equal(row.term, c.term);
+    COEF_FIELDS.forEach((f, j) => {
+      const v = fromFull(row.cells[j].full);
+      assert.ok(relClose(v, c[f], 1e-9), `${c.term} ${f}: page ${v}, CLI ${c[f]}`);
+      assert.ok(row.cells[j].title.includes(row.cells[j].full), 'the tooltip holds the full value');
+      compared++;
+    });
+  });
+  assert.equal(compared, 72);
+
+  const figures = await page.$$eval('#fit-figures dd[data-full]', (dds) => Object.fromEntries(
+    dds.map((dd) => [dd.previousElementSibling.textContent, dd.dataset.full])));
+  for (const [label, key] of [['R²', 'r_squared'], ['Adjusted R²', 'adj_r_squared'], ['Residual standard error', 'residual_std_error'],
+    ['F statistic', 'f_statistic'], ['p-value of F', 'f_p_value'], ['AIC', 'aic'], ['BIC', 'bic'], ['Log-likelihood', 'log_likelihood']]) {
+    assert.ok(relClose(fromFull(figures[label]), cli[key], 1e-9), `${label}: page ${figures[label]}, CLI ${cli[key]}`);
+  }
+  assert.match(await page.textContent('#fit-figures'), /236 of 240/);
+  assert.match(await page.textContent('#rows-line'), /236 of 240 rows used\. Left out: 1 row with a missing value in mean_outdoor_temp_c \(file row 91\); 3 rows with a missing value in building_age \(file rows 24, 119, 202\)\./);
+
+
+  const cautions = await page.$$eval('#cautions-list li', (lis) => lis.map((l) => l.textContent));
+  assert.deepEqual(cautions, cli.cautions, 'the cautions are the result\'s own');
+  assert.ok(await page.isVisible('#cautions-block'), 'the cautions are visible');
+
+  // The same fit through the test hook is the CLI's JSON, field for field.
+  const hooked = await page.evaluate(([response, terms]) => window.plumblineTest.fit(
+    document.getElementById('plumbline-demo').textContent, { response, terms }), [DEMO_RESPONSE, DEMO_TERMS]);
+  assert.ok(hooked.ok);
+  for (const [i, c] of cli.coefficients.entries()) {
+    for (const f of COEF_FIELDS) assert.ok(relClose(hooked.ok.coefficients[i][f], c[f], 1e-9), `hook ${c.term} ${f}`);
+  }
+});
+
+test('Copy table copies tab-separated values with every digit', { timeout: 30000 }, async () => {
+  await context.grantPermissions(['clipboard-read', 'clipboard-write']);
+  await page.click('#copy-button');
+  await page.locator('#copy-status').filter({ hasText: 'Copied' }).waitFor({ timeout: 5000 });
+  const expected = await page.evaluate(() => window.plumblineTest.copiedText());
+  const clip = await page.evaluate(() => navigator.clipboard.readText());
+  assert.equal(clip, expected, 'the clipboard holds the table text');
+  const lines = clip.trimEnd().split('\n').map((l) => l.split('\t'));
+  assert.deepEqual(lines[0], ['term', 'estimate', 'standard error', 't', 'p-value', 'low (95%)', 'high (95%)']);
+  // Every digit the page holds is copied, and they are the CLI's numbers.
+  const rows = await coefTableFromPage();
+  const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  assert.equal(lines.length, cli.coefficients.length + 1);
+  cli.coefficients.forEach((c, i) => {
+    assert.equal(lines[i + 1][0], c.term);
+    COEF_FIELDS.forEach((f, j) => {
+      assert.equal(lines[i + 1][j + 1], rows[i].cells[j].full, `${c.term} ${f} copied in full`);
+      assert.ok(relClose(Number(lines[i + 1][j + 1]), c[f], 1e-9), `${c.term} ${f} copied: ${lines[i + 1][j + 1]}, CLI ${c[f]}`);
+    });
+  });
+});
+
+test('opening the page with #demo loads the demo at once', { timeout: 60000 }, async () => {
+  await page.goto(`${pageUrl}#demo`);
+  await page.waitForFunction(() => window.plumblineTest && window.plumblineTest.fitsDone() > 0, null, { timeout: 20000 });
+  assert.equal(await page.locator('#coef-table tbody tr').count(), 12);
+  assert.match(await page.textContent('#data-facts'), /building-energy\.csv/);
+  await page.setViewportSize({ width: 1920, height: 1080 });
+  await page.evaluate(() => window.scrollTo(0, 0));
+  await shot('03-demo-1920x1080');
+  await page.setViewportSize({ width: 1366, height: 768 });
+  const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+  assert.ok(overflow <= 0, `no sideways scrolling of the page at 1366 wide (overflow ${overflow}px)`);
+});
+
+test('NIST StRD linear sets: the wasm build agrees with the native CLI', { timeout: 120000 }, async () => {
+  await openFresh();
+  const sets = readdirSync(nistDir).filter((f) => f.endsWith('.json')).sort();
+  assert.equal(sets.length, 11, 'eleven reference sets');
+  const table = [];
+  const failures = [];
+  for (const file of sets) {
+    const meta = JSON.parse(readFileSync(join(nistDir, file), 'utf8'));
+    const predictors = meta.csv_columns.slice(1);
+    let terms;
+    let intercept = true;
+    if (meta.design === 'columns') terms = predictors.join(', ');
+    else if (meta.design === 'polynomial') terms = Array.from({ length: meta.degree }, (_, k) => (k === 0 ? 'x' : `x^${k + 1}`)).join(', ');
+    else if (meta.design === 'no_intercept') { terms = predictors.join(', '); intercept = false; }
+    else assert.fail(`unknown design ${meta.design}`);
+    const csvPath = join(nistDir, meta.csv_file);
+    const request = { response: meta.csv_columns[0], terms, intercept };
+    const native = cliFit(csvPath, request);
+    const wasm = await page.evaluate(([text, req]) => window.plumblineTest.fit(text, req), [readFileSync(csvPath, 'utf8'), request]);
+    assert.ok(wasm.ok, `${meta.name}: ${wasm.error}`);
+    const w = wasm.ok;
+    assert.equal(w.coefficients.length, native.coefficients.length, `${meta.name}: number of coefficients`);
+    let minEst = Infinity;
+    let minSe = Infinity;
+    let identical = true;
+    native.coefficients.forEach((c, i) => {
+      assert.equal(w.coefficients[i].term, c.term);
+      minEst = Math.min(minEst, lre(w.coefficients[i].estimate, c.estimate));
+      minSe = Math.min(minSe, lre(w.coefficients[i].std_error, c.std_error));
+      identical &&= w.coefficients[i].estimate === c.estimate && w.coefficients[i].std_error === c.std_error;
+    });
+    const rse = lre(w.residual_std_error, native.residual_std_error);
+    const r2 = lre(w.r_squared, native.r_squared);
+    identical &&= w.residual_std_error === native.residual_std_error && w.r_squared === native.r_squared;
+    const others = differences(w, native);
+    table.push({ set: meta.name, p: native.coefficients.length, path: w.solver_path, minEst, minSe, rse, r2, others });
+    for (const [what, v] of [['estimates', minEst], ['std errors', minSe], ['residual std error', rse], ['R²', r2]]) {
+      if (!(v >= 12)) failures.push(`${meta.name} ${what}: wasm and CLI agree to ${v.toFixed(1)} digits, fewer than 12`);
+    }
+  }
+  const d = (v) => (v === Infinity ? 'same' : v.toFixed(1));
+  const pad = (s, n) => String(s).padEnd(n);
+  console.log('\n  wasm vs native CLI (LRE, digits; "same" = identical bits)');
+  console.log(`  ${pad('set', 10)}${pad('p', 4)}${pad('path', 15)}${pad('estimates', 11)}${pad('std errors', 12)}${pad('resid SE', 10)}${pad('R²', 7)}rest of the result`);
+  for (const r of table) {
+    console.log(`  ${pad(r.set, 10)}${pad(r.p, 4)}${pad(r.path, 15)}${pad(d(r.minEst), 11)}${pad(d(r.minSe), 12)}${pad(d(r.rse), 10)}${pad(d(r.r2), 7)}${r.others.count === 0 ? 'identical' : `${r.others.count} numbers differ, least LRE ${r.others.least.toFixed(1)} (${r.others.where.join(', ')})`}`);
+  }
+  console.log('');
+  assert.deepEqual(failures, []);
+});
+
+test('a header like <img src=x onerror=alert(1)> shows as text and runs nothing', { timeout: 60000 }, async () => {
+  await openFresh();
+  const evil = '<img src=x onerror=alert(1)>';
+  const csv = `"${evil}",y\n1,2\n2,4.5\n3,5\n4,8.5\n`;
+  await page.setInputFiles('#file-input', { name: '<b>evil</b>.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) });
+  await page.locator('#preview thead th').nth(1).waitFor({ timeout: 10000 });
+  assert.equal(await page.textContent('#preview thead th:nth-child(2)'), evil);
+  assert.match(await page.textContent('#data-facts'), /<b>evil<\/b>\.csv/);
+  await page.selectOption('#response-column', 'y');
+  await page.fill('#terms', `"${evil}"`);
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(2);
+  assert.equal(await page.textContent('#coef-table tbody tr:nth-child(2) th'), `"${evil}"`);
+  await page.waitForTimeout(300);
+  await shot('04-markup-header-as-text');
+  assert.equal(await page.locator('img').count(), 0, 'no img element was made');
+  assert.equal(await page.locator('#preview b, #data-facts b').count(), 0, 'no b element from the file name');
+  assert.deepEqual(dialogs, [], 'no dialog fired');
+  assert.deepEqual(foreignRequests(), [], 'nothing was requested');
+});
+
+test('a file dropped on the page opens; a workbook is refused in plain words', { timeout: 60000 }, async () => {
+  await openFresh();
+  const drop = (name, text) => page.evaluate(([n, t]) => {
+    const dt = new DataTransfer();
+    dt.items.add(new File([t], n, { type: 'text/csv' }));
+    document.getElementById('drop-zone').dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
+  }, [name, text]);
+  await drop('dropped.csv', '"floor area",y\n1,2\n2,4.5\n3,5\n4,8.5\n');
+  await page.locator('#data-facts').filter({ hasText: 'dropped.csv' }).waitFor({ timeout: 10000 });
+  assert.match(await page.textContent('#data-facts'), /4 rows of data, 2 columns/);
+  assert.equal(await page.getAttribute('#column-buttons button:first-child', 'title'), 'Add "floor area" to the terms');
+  await drop('book.xlsx', 'PK');
+  assert.match(await visibleText('#data-message'), /"book\.xlsx" is a workbook; .*Save the sheet as CSV/);
+  assert.match(await page.textContent('#data-facts'), /dropped\.csv/, 'the dropped data stay');
+});
+
+test('a bad term shows the plain message and the table stays loaded', { timeout: 60000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  await assertCoefRows(12);
+  await page.fill('#terms', 'log(floor_area_m2), nosuchcol');
+  await afterFit(() => page.click('#fit-button'));
+  const msg = await visibleText('#model-message');
+  assert.match(msg, /There is no column called "nosuchcol"/);
+  assert.equal(await page.getAttribute('#model-message', 'role'), 'alert');
+  assert.equal(await page.locator('#preview tbody tr').count(), 10, 'the preview is still there');
+  assert.match(await page.textContent('#data-facts'), /240 rows of data/);
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), nosuchcol', 'the terms typed are kept');
+  assert.equal(await page.inputValue('#response-column'), 'energy_mwh');
+  await shot('05-bad-term');
+
+  // A syntax slip is reported in plain words too.
+  await page.fill('#terms', 'log(floor_area_m2');
+  await afterFit(() => page.press('#terms', 'Enter'));
+  assert.match(await visibleText('#model-message'), /Could not read/);
+
+  // Mending the term and fitting again works on the data still loaded.
+  await page.fill('#terms', DEMO_TERMS);
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  assert.ok(await page.isHidden('#model-message'), 'the message is cleared by a good fit');
+});
+
+test('a corrupt file shows a message and the data already loaded stay', { timeout: 60000 }, async () => {
+  // Still on the demo from the test before.
+  assert.match(await page.textContent('#data-facts'), /building-energy\.csv/);
+  const junk = Buffer.concat([Buffer.from([0xff, 0xfe, 0x00, 0xc3, 0x28]), randomBytes(2048)]);
+  await page.setInputFiles('#file-input', { name: 'broken.csv', mimeType: 'text/csv', buffer: junk });
+  const msg = await visibleText('#data-message');
+  assert.match(msg, /"broken\.csv" could not be opened/);
+  assert.match(msg, /not readable text/);
+  assert.match(msg, /are still loaded/);
+  assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data, 10 columns/);
+  assert.equal(await page.locator('#preview tbody tr').count(), 10);
+  assert.equal(await page.inputValue('#response-column'), 'energy_mwh');
+  await shot('06-corrupt-file');
+
+  // A ragged file is refused with the reader's words as well.
+  await page.setInputFiles('#file-input', { name: 'ragged.csv', mimeType: 'text/csv', buffer: Buffer.from('a,b\n1,2\n3\n') });
+  await page.locator('#data-message').filter({ hasText: 'Line 3 has 1 cells' }).waitFor({ timeout: 10000 });
+
+  // The data still fit.
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+});
+
+test('when the worker dies, the page says so, starts a fresh one and keeps the data', { timeout: 60000 }, async () => {
+  await page.evaluate(() => window.plumblineTest.crashWorker());
+  const msg = await visibleText('#model-message');
+  assert.match(msg, /stopped unexpectedly/);
+  assert.match(msg, /fresh calculation worker/);
+  await shot('07-worker-restarted');
+  assert.match(await page.textContent('#data-facts'), /240 rows of data/);
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  assert.ok(await page.isHidden('#model-message'), 'the message is cleared by the good fit');
+  const r = await page.evaluate(() => window.plumblineTest.fit('y,x\n1,1\n2,3\n4,4\n', { response: 'y', terms: 'x' }));
+  assert.ok(r.ok, 'the fresh worker fits');
+});
+
+test('when the worker reports a panic, the page shows it and starts a fresh worker', { timeout: 60000 }, async () => {
+  const e = await page.evaluate(() => window.plumblineTest.pretendPanic());
+  assert.equal(e && e.kind, 'panic', 'the request is rejected as a panic');
+  const msg = await visibleText('#model-message');
+  assert.match(msg, /internal error, which is a bug/);
+  assert.match(msg, /fresh calculation worker/);
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  assert.ok(await page.isHidden('#model-message'));
+});
+
+test('the page works from the keyboard, and every control has a label', { timeout: 60000 }, async () => {
+  await openFresh();
+  const unlabelled = await page.$$eval('input, select, textarea, button', (els) => els
+    .filter((e) => !(e.labels && e.labels.length) && !e.getAttribute('aria-label') && !e.getAttribute('aria-labelledby') && !e.textContent.trim())
+    .map((e) => e.id || e.outerHTML.slice(0, 60)));
+  assert.deepEqual(unlabelled, [], 'controls without a label');
+
+  await page.evaluate(() => document.activeElement && document.activeElement.blur());
+  let reached = false;
+  for (let i = 0; i < 12 && !reached; i++) {
+    await page.keyboard.press('Tab');
+    reached = await page.evaluate(() => document.activeElement && document.activeElement.id === 'demo-button');
+  }
+  assert.ok(reached, 'Tab reaches the demo button');
+  await afterFit(() => page.keyboard.press('Enter'));
+  await assertCoefRows(12);
+
+  await page.focus('#terms');
+  await page.keyboard.press('ControlOrMeta+a');
+  await page.keyboard.type('log(floor_area_m2), retrofit');
+  await afterFit(() => page.keyboard.press('Enter'));
+  await assertCoefRows(3); // Enter in the terms fits the new model
+  await page.keyboard.press('Tab');
+  const focused = await page.evaluate(() => document.activeElement.className);
+  assert.match(focused, /chip/, 'the column buttons are in the tab order');
+  await page.keyboard.press('Enter');
+  assert.match(await page.inputValue('#terms'), /retrofit, \w+$/, 'a column button adds its name to the terms');
+  await shot('08-keyboard');
+});
+
+test('HC3 and a changed level come through from the wasm', { timeout: 60000 }, async () => {
+  await page.fill('#terms', DEMO_TERMS);
+  await page.check('#hc3');
+  await page.fill('#level', '90');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS, level: 0.9, hc3: true });
+  const hc3 = await page.$$eval('#hc3-table tbody tr', (rows) => rows.map((tr) => [...tr.querySelectorAll('td.num')].map((td) => td.dataset.full)));
+  cli.hc3.forEach((c, i) => {
+    ['std_error', 't', 'p_value', 'ci_low', 'ci_high'].forEach((f, j) => assert.ok(relClose(fromFull(hc3[i][j]), c[f], 1e-9), `HC3 ${c.term} ${f}`));
+  });
+  const rows = await coefTableFromPage();
+  cli.coefficients.forEach((c, i) => assert.ok(relClose(fromFull(rows[i].cells[4].full), c.ci_low, 1e-9), `90% low of ${c.term}`));
+  assert.match(await page.textContent('#coef-table thead'), /Low \(90%\)/);
+  await shot('09-hc3-level-90');
+});
+
+test('over the whole session, nothing was requested but the page', { timeout: 10000 }, () => {
+  const foreign = foreignRequests();
+  console.log(`  requests: ${requests.length} of the page itself, ${foreign.length} other; data: URLs seen as requests: ${dataRequests.length}; workers started: ${workers.length}`);
+  assert.deepEqual(foreign, []);
+  assert.ok(requests.length >= 1);
+  assert.deepEqual(dialogs, []);
+  assert.deepEqual(pageErrors, [], 'no uncaught script error in the page');
+});

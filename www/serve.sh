@@ -1,0 +1,8 @@
+#!/usr/bin/env bash
+# Builds the page, then serves dist/ on 127.0.0.1 (port $PORT, default 8080).
+set -euo pipefail
+
+root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+bash "$root/www/build.sh"
+export PORT="${PORT:-8080}"
+exec node "$root/www/tools/serve.mjs"
