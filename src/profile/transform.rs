@@ -159,6 +159,7 @@ pub struct BoxCoxFit {
 }
 
 /// Fits Box–Cox to positive values (needs at least 3, not all equal).
+/// `None` also when the likelihood interval for λ is wider than [-10, 10].
 pub fn fit_boxcox(x: &[f64], level: f64) -> Option<BoxCoxFit> {
     if x.len() < 3 || x.iter().any(|&v| !(v > 0.0) || !v.is_finite()) || variance(x) == 0.0 {
         return None;
@@ -187,7 +188,13 @@ pub fn fit_boxcox(x: &[f64], level: f64) -> Option<BoxCoxFit> {
         }
         0.5 * (inside + outside)
     };
-    Some(BoxCoxFit { lambda, ci_low: root(lambda, lambda - 20.0), ci_high: root(lambda, lambda + 20.0), llf: top })
+    let (ci_low, ci_high) = (root(lambda, lambda - 20.0), root(lambda, lambda + 20.0));
+    // When the interval runs past the searched range the data do not pin λ
+    // down (the likelihood is flat, as for values that barely vary).
+    if ci_low < LAMBDA_RANGE.0 || ci_high > LAMBDA_RANGE.1 {
+        return None;
+    }
+    Some(BoxCoxFit { lambda, ci_low, ci_high, llf: top })
 }
 
 /// The Yeo–Johnson λ̂ (needs at least 3 values, not all equal).

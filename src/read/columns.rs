@@ -107,8 +107,9 @@ pub fn header_names(header: &[RawCell], width: usize, warnings: &mut Vec<String>
 }
 
 /// How many invalid cells a numeric column may hold, as a share of its
-/// non-missing cells, before it is read as text instead (a judgement, no
-/// source: one stray note among twenty numbers is a typo, not a label).
+/// non-missing cells, before it is read as text instead; a single stray
+/// cell among four or more numbers is always tolerated (a judgement, no
+/// source: one stray note among numbers is a typo, not a label).
 const INVALID_SHARE: usize = 20;
 /// Examples of invalid cells kept per column.
 const INVALID_EXAMPLES: usize = 20;
@@ -205,7 +206,8 @@ impl ColumnScan {
             return (ColumnType::Date(DayOrder::DayFirst), None);
         }
         let strays = self.text_dates + self.other_text + self.dates;
-        if self.numbers == filled || (self.numbers >= 4 && strays * INVALID_SHARE <= filled) {
+        let few_strays = strays * INVALID_SHARE <= filled || strays == 1;
+        if self.numbers == filled || (self.numbers >= 4 && few_strays) {
             return (ColumnType::Numeric, None);
         }
         (ColumnType::Text, None)
@@ -287,9 +289,38 @@ impl ColumnFill {
     }
 }
 
-/// Warnings for invalid and error cells, worded for the user.
+/// The single value of a column whose non-missing cells are all equal.
+fn only_value(data: &ColumnData) -> Option<String> {
+    match data {
+        ColumnData::Numeric(v) | ColumnData::Date(v) => {
+            let mut it = v.iter().filter(|x| !x.is_nan());
+            let first = *it.next()?;
+            it.all(|&x| x == first).then(|| match data {
+                ColumnData::Date(_) => cells::format_date(first),
+                _ => format!("{first}"),
+            })
+        }
+        ColumnData::Text(v) => {
+            let mut it = v.iter().flatten();
+            let first = it.next()?;
+            it.all(|x| x == first).then(|| format!("\"{first}\""))
+        }
+    }
+}
+
+/// Warnings for empty and constant columns and for invalid and error
+/// cells, worded for the user.
 pub fn cell_warnings(columns: &[Column], source_rows: &[usize], warnings: &mut Vec<String>) {
     for c in columns {
+        let n = c.data.len();
+        if (0..n).all(|i| c.data.is_missing(i)) {
+            warnings.push(format!("Column \"{}\" is empty: all {n} cells are missing.", c.name));
+        } else if let Some(v) = only_value(&c.data) {
+            warnings.push(format!(
+                "Column \"{}\" has the same value ({v}) in every row, so it cannot explain anything.",
+                c.name
+            ));
+        }
         if let Some((row, text)) = c.invalid.first() {
             let kind = if matches!(c.data, ColumnData::Date(_)) { "a date" } else { "a number" };
             let more = c.invalid_count - 1;
@@ -362,5 +393,7 @@ mod tests {
         many.push("n/k");
         assert_eq!(decide(&many), ColumnType::Numeric, "one stray note among 30 numbers");
         assert_eq!(decide(&["1", "2", "n/k"]), ColumnType::Text);
+        assert_eq!(decide(&["1", "2", "3", "4", "n/k"]), ColumnType::Numeric);
+        assert_eq!(decide(&["1", "2", "3", "4", "n/k", "?"]), ColumnType::Text);
     }
 }

@@ -211,7 +211,7 @@ mod tests {
 
     #[test]
     fn duplicate_and_blank_names_are_renamed_with_warnings() {
-        let t = check("x,x,\n1,2,3\n", &["x", "x_2", "column_3"], &[2]);
+        let t = check("x,x,\n1,2,3\n4,5,6\n", &["x", "x_2", "column_3"], &[2, 3]);
         assert_eq!(t.warnings.len(), 2);
     }
 

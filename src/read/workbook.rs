@@ -131,6 +131,35 @@ pub fn read_workbook(bytes: &[u8], options: &ReadOptions, format: Format) -> Res
     }
     let columns: Vec<_> = fills.into_iter().zip(names).map(|(f, n)| f.finish(n)).collect();
     cell_warnings(&columns, &source_rows, &mut warnings);
+    // Formulas saved without their results read as empty; say so.
+    if let Ok(formulas) = wb.worksheet_formula(&sheet) {
+        let (f_row, f_col) = formulas.start().unwrap_or((0, 0));
+        let (_, r_col) = range.start().unwrap_or((0, 0));
+        for (&j, name) in keep.iter().zip(columns.iter().map(|c| &c.name)) {
+            let mut rows_without = Vec::new();
+            for &(n, r) in data {
+                let value_empty = r.get(j).is_none_or(|c| matches!(c, Data::Empty));
+                let (fr, fc) = ((n - 1) as i64 - f_row as i64, (j as u32 + r_col) as i64 - f_col as i64);
+                let has_formula = fr >= 0
+                    && fc >= 0
+                    && formulas.get((fr as usize, fc as usize)).is_some_and(|f| !f.trim().is_empty());
+                if value_empty && has_formula {
+                    rows_without.push(n);
+                }
+            }
+            if !rows_without.is_empty() {
+                warnings.push(format!(
+                    "Column \"{name}\" has {} formula {} saved without {} result (sheet {} {}), read as missing. \
+                     Open the file in a spreadsheet program and save it again to store the results.",
+                    rows_without.len(),
+                    if rows_without.len() == 1 { "cell" } else { "cells" },
+                    if rows_without.len() == 1 { "its" } else { "their" },
+                    if rows_without.len() == 1 { "row" } else { "rows" },
+                    rows_without.iter().take(5).map(|r| r.to_string()).collect::<Vec<_>>().join(", ")
+                ));
+            }
+        }
+    }
     let mut notes = Vec::new();
     if header_index > 0 {
         notes.push(format!(

@@ -411,9 +411,27 @@ test('a file dropped on the page opens; a workbook is refused in plain words', {
   await page.locator('#data-facts').filter({ hasText: 'dropped.csv' }).waitFor({ timeout: 10000 });
   assert.match(await page.textContent('#data-facts'), /4 rows of data, 2 columns/);
   assert.equal(await page.getAttribute('#column-buttons button:first-child', 'title'), 'Add "floor area" to the terms');
+  assert.ok(await page.isHidden('#preview-doubt'), 'a plain CSV raises no doubt about the preview');
+
+  // The preview numbers rows as the file does (header = row 1), as messages do.
+  await drop('lines.csv', 'name,y\n"two\nlines",1\n\nz,3\nw,4\n');
+  await page.locator('#data-facts').filter({ hasText: 'lines.csv' }).waitFor({ timeout: 10000 });
+  assert.deepEqual(await page.$$eval('#preview tbody th', (ths) => ths.map((t) => t.textContent)), ['2', '5', '6']);
+  assert.match(await page.textContent('#data-facts'), /3 rows of data, 2 columns/);
+
+  // A file the preview reads otherwise than the wasm does gets a note, when
+  // (and only when) the wasm reader finds other column names.
+  const semi = 'a;b\n1,5;2\n3;4\n5;7\n';
+  const wasmSees = await page.evaluate((t) => window.plumblineTest.fit(t, { response: 'a', terms: '' }), semi);
+  const wasmFindsA = !(wasmSees.error && wasmSees.error.startsWith('There is no column called'));
+  await drop('semicolons.csv', semi);
+  await page.locator('#data-facts').filter({ hasText: 'semicolons.csv' }).waitFor({ timeout: 10000 });
+  assert.equal(await page.isVisible('#preview-doubt'), wasmFindsA, `the note shows exactly when the wasm reads columns the preview does not (wasm finds "a": ${wasmFindsA})`);
+  if (wasmFindsA) await shot('05b-preview-doubt');
+
   await drop('book.xlsx', 'PK');
   assert.match(await visibleText('#data-message'), /"book\.xlsx" is a workbook; .*Save the sheet as CSV/);
-  assert.match(await page.textContent('#data-facts'), /dropped\.csv/, 'the dropped data stay');
+  assert.match(await page.textContent('#data-facts'), /semicolons\.csv/, 'the dropped data stay');
 });
 
 test('a bad term shows the plain message and the table stays loaded', { timeout: 60000 }, async () => {
@@ -449,8 +467,14 @@ test('a corrupt file shows a message and the data already loaded stay', { timeou
   const junk = Buffer.concat([Buffer.from([0xff, 0xfe, 0x00, 0xc3, 0x28]), randomBytes(2048)]);
   await page.setInputFiles('#file-input', { name: 'broken.csv', mimeType: 'text/csv', buffer: junk });
   const msg = await visibleText('#data-message');
-  assert.match(msg, /"broken\.csv" could not be opened/);
-  assert.match(msg, /not readable text/);
+  const why = (await page.evaluate((b64) => {
+    const bin = atob(b64);
+    const bytes = Uint8Array.from(bin, (c) => c.charCodeAt(0));
+    return window.plumblineTest.fitBytes(bytes, { response: '' });
+  }, junk.toString('base64'))).error;
+  assert.match(why, /^Could not read the file: /, 'the wasm refuses the bytes');
+  assert.match(msg, /"broken\.csv" could not be opened: /);
+  assert.ok(msg.includes(why.replace(/^Could not read the file: /, '')), `the message holds the wasm's words (${why})`);
   assert.match(msg, /are still loaded/);
   assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data, 10 columns/);
   assert.equal(await page.locator('#preview tbody tr').count(), 10);
@@ -458,8 +482,12 @@ test('a corrupt file shows a message and the data already loaded stay', { timeou
   await shot('06-corrupt-file');
 
   // A ragged file is refused with the reader's words as well.
-  await page.setInputFiles('#file-input', { name: 'ragged.csv', mimeType: 'text/csv', buffer: Buffer.from('a,b\n1,2\n3\n') });
-  await page.locator('#data-message').filter({ hasText: 'Line 3 has 1 cells' }).waitFor({ timeout: 10000 });
+  const ragged = Buffer.from('a,b\n1,2\n3\n');
+  const raggedWhy = (await page.evaluate((t) => window.plumblineTest.fit(t, { response: '' }), ragged.toString())).error;
+  assert.match(raggedWhy, /^Could not read the file: /);
+  await page.setInputFiles('#file-input', { name: 'ragged.csv', mimeType: 'text/csv', buffer: ragged });
+  await page.locator('#data-message').filter({ hasText: 'ragged.csv' }).waitFor({ timeout: 10000 });
+  assert.ok((await page.textContent('#data-message')).includes(raggedWhy.replace(/^Could not read the file: /, '')), 'the wasm reader\'s own words');
 
   // The data still fit.
   await afterFit(() => page.click('#fit-button'));

@@ -17,7 +17,7 @@ What it does
 3. Writes the bad inputs to ``tests/data/bad/`` with
    ``tests/data/bad/expected.json``.
 4. With ``--check``, reads every workbook back with independent readers
-   (openpyxl, odfpy, xlrd, and python-calamine, the Python binding of the
+   (openpyxl, odfpy, xlrd, pyxlsb, and python-calamine, the Python binding of the
    calamine crate the Rust readers use) and every text file with Python's
    csv module, and compares with ``expected.json``. Readers that are not
    installed are skipped with a note. The check never changes a file.
@@ -30,12 +30,12 @@ From the repository root::
     python3 tests/reference/make_fixtures.py --check  # and read it back
 
 Needs numpy, openpyxl (3.1.5 used), odfpy (1.4.1) and xlwt (1.3.0):
-``pip install openpyxl odfpy xlwt``; the check also uses xlrd (2.0.2) and
-python-calamine (0.9.1) when present. Deterministic: two runs give
+``pip install openpyxl odfpy xlwt``; the check also uses xlrd (2.0.2),
+pyxlsb (1.0.10) and python-calamine (0.9.1) when present. Deterministic: two runs give
 byte-identical files. To get there, workbook document properties are fixed
 (created/modified 2024-06-01T12:00:00Z), the application name in the xlsx
 extended properties is set to ``openpyxl``, and every zip container (xlsx,
-ods) is rewritten with a fixed entry time of 2024-06-01 12:00:00 and the
+ods, xlsb) is rewritten with a fixed entry time of 2024-06-01 12:00:00 and the
 entry order and compression its writer chose. The xls writer stores no
 timestamp.
 
@@ -47,9 +47,17 @@ Formats and how each is made
 * ods: odfpy; dates are ``office:value-type="date"`` cells with a date
   style, numbers ``float`` cells, text ``string`` cells.
 * xls: xlwt (BIFF8); dates are numbers with a ``YYYY-MM-DD`` format.
-* xlsb: not made. No writer for it could be had here: the office suite in
-  Debian's packages reads xlsb but has no export filter for it, and no
-  Python package writes it.
+* xlsb: no program or package that could be had here writes xlsb (the
+  office suite in Debian's packages imports it but has no export filter; the
+  Python xlsb packages only read). So ``write_xlsb`` assembles the file
+  record by record from the published format specification (MS-XLSB), laid
+  out as spreadsheet programs lay it out: shared-string table, a style sheet
+  whose second cell format uses the number format ``yyyy-mm-dd``, integers
+  and dates (whole-day serials) as RK cells, other numbers as 8-byte floats,
+  missing values as absent cells. It was checked by opening it in that office
+  suite (which showed the same cells and date formatting as for the xlsx),
+  with the calamine crate 0.38 (dates come back as ``Data::DateTime``), with
+  python-calamine and with pyxlsb.
 * text files: written byte by byte by this script (encoding, delimiter,
   decimal mark and line ends as listed in the README).
 * ``errors.xlsx``: openpyxl writes error values as error-typed cells
@@ -181,16 +189,18 @@ def cell_text(row, col, decimal=".", date_fmt="%Y-%m-%d"):
 # ---------------------------------------------------------------- xlsx
 
 def save_openpyxl(wb, path, edit=None):
-    from openpyxl.writer.excel import ExcelWriter
-
     wb.properties.creator = "plumbline tests/reference/make_fixtures.py"
     wb.properties.created = FIXED_TIME
-    wb.properties.modified = FIXED_TIME
     buf = io.BytesIO()
-    archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
-    ExcelWriter(wb, archive).save()  # unlike save_workbook, keeps `modified`
-    edits = {"docProps/app.xml": lambda b: re.sub(rb"<Application>[^<]*</Application>",
-                                                  b"<Application>openpyxl</Application>", b)}
+    wb.save(buf)
+    stamp = FIXED_TIME.strftime("%Y-%m-%dT%H:%M:%SZ").encode()
+    edits = {
+        # openpyxl sets `modified` to the time of saving: fix it.
+        "docProps/core.xml": lambda b: re.sub(rb"(<dcterms:modified[^>]*>)[^<]*(</dcterms:modified>)",
+                                              rb"\g<1>" + stamp + rb"\g<2>", b),
+        "docProps/app.xml": lambda b: re.sub(rb"<Application>[^<]*</Application>",
+                                             b"<Application>openpyxl</Application>", b),
+    }
     edits.update(edit or {})
     rezip(buf.getvalue(), path, edits)
 
@@ -357,6 +367,197 @@ def write_xls(rows):
     (FILES / "deliveries.xls").write_bytes(buf.getvalue())
 
 
+# ---------------------------------------------------------------- xlsb
+#
+# No program or package that could be had here writes xlsb, so this section
+# assembles one record by record from the published format specification
+# (MS-XLSB): a zip of binary parts laid out as spreadsheet programs lay them
+# out (shared-string table, a style sheet with a yyyy-mm-dd number format,
+# integers and whole-day dates as RK cells, other numbers as 8-byte floats,
+# absent cells for missing values). ``--check`` then opens it with
+# python-calamine and pyxlsb.
+
+def _rec(typ, body=b""):
+    """One record: type and size as 7-bit varints, then the body."""
+    out = bytearray()
+    if typ < 0x80:
+        out.append(typ)
+    else:
+        out += bytes([(typ & 0x7F) | 0x80, typ >> 7])
+    n = len(body)
+    while True:
+        b = n & 0x7F
+        n >>= 7
+        out.append(b | (0x80 if n else 0))
+        if not n:
+            break
+    return bytes(out) + body
+
+
+def _u8(v):
+    return v.to_bytes(1, "little")
+
+
+def _u16(v):
+    return v.to_bytes(2, "little")
+
+
+def _u32(v):
+    return v.to_bytes(4, "little")
+
+
+def _f64(v):
+    return np.float64(v).tobytes()
+
+
+def _wstr(s):
+    return _u32(len(s)) + s.encode("utf-16-le")
+
+
+def _color(rgb=None, theme=None, indexed=None):
+    # BrtColor: fValidRGB + xColorType, index, nTintAndShade, R, G, B, A
+    if theme is not None:
+        return _u8((3 << 1) | 0) + _u8(theme) + _u16(0) + bytes(4)
+    if indexed is not None:
+        return _u8((1 << 1) | 0) + _u8(indexed) + _u16(0) + bytes([0, 0, 0, 0xFF])
+    r, g, b = rgb
+    return _u8((2 << 1) | 1) + _u8(0) + _u16(0) + bytes([r, g, b, 0xFF])
+
+
+def _xf(parent, fmt):
+    # BrtXF: ixfeParent, iFmt, iFont, iFill, ixBorder, trot, indent,
+    # alignment/protection flags (fLocked), xfGrbitAtr
+    return _rec(0x002F, _u16(parent) + _u16(fmt) + _u16(0) + _u16(0) + _u16(0) + _u8(0) + _u8(0)
+                + _u16(1 << 12) + _u16(0))
+
+
+def xlsb_styles():
+    body = _rec(0x0116)  # BrtBeginStyleSheet
+    body += _rec(0x0267, _u32(1)) + _rec(0x002C, _u16(164) + _wstr("yyyy-mm-dd")) + _rec(0x0268)
+    font = (_u16(220) + _u16(0) + _u16(400) + _u16(0) + _u8(0) + _u8(2) + _u8(0) + _u8(0)
+            + _color(rgb=(0, 0, 0)) + _u8(0) + _wstr("Arial"))
+    body += _rec(0x0263, _u32(1)) + _rec(0x002B, font) + _rec(0x0264)
+    fill_tail = _u32(0) + _f64(0) * 5 + _u32(0)
+    body += (_rec(0x025B, _u32(2))
+             + _rec(0x002D, _u32(0) + _color(indexed=64) + _color(indexed=65) + fill_tail)
+             + _rec(0x002D, _u32(17) + _color(indexed=64) + _color(indexed=65) + fill_tail)
+             + _rec(0x025C))
+    blxf = _u8(0) + _u8(0) + _color(indexed=64)
+    body += _rec(0x0265, _u32(1)) + _rec(0x002E, _u8(0) + blxf * 5) + _rec(0x0266)
+    body += _rec(0x0272, _u32(1)) + _xf(0xFFFF, 0) + _rec(0x0273)  # cell style XFs
+    body += _rec(0x0269, _u32(2)) + _xf(0, 0) + _xf(0, 164) + _rec(0x026A)  # cell XFs: general, date
+    body += (_rec(0x026B, _u32(1)) + _rec(0x0030, _u32(0) + _u16(1) + _u8(0) + _u8(0xFF) + _wstr("Normal"))
+             + _rec(0x026C))
+    body += _rec(0x01F9, _u32(0)) + _rec(0x01FA)  # DXFs
+    body += _rec(0x01FC, _u32(0) + _wstr("TableStyleMedium2") + _wstr("PivotStyleLight16")) + _rec(0x01FD)
+    return body + _rec(0x0117)
+
+
+def xlsb_sheet(grid, sst):
+    """grid: rows of cells (None, str, int, float or date)."""
+    ncol = max(len(r) for r in grid)
+    out = _rec(0x0081)  # BrtBeginSheet
+    out += _rec(0x0094, _u32(0) + _u32(len(grid) - 1) + _u32(0) + _u32(ncol - 1))  # BrtWsDim
+    out += _rec(0x0091)  # BrtBeginSheetData
+    for i, row in enumerate(grid):
+        cols = [j for j, v in enumerate(row) if v is not None]
+        span = _u32(1) + _u32(cols[0]) + _u32(cols[-1]) if cols else _u32(0)
+        out += _rec(0x0000, _u32(i) + _u32(0) + _u16(300) + bytes(3) + span)  # BrtRowHdr
+        for j, v in enumerate(row):
+            if v is None:
+                continue
+            if isinstance(v, dt.date):
+                serial = (v - dt.date(1899, 12, 30)).days
+                out += _rec(0x0002, _u32(j) + _u32(1) + _u32((serial << 2) | 2))  # RK, date style
+            elif isinstance(v, str):
+                if v not in sst:
+                    sst[v] = len(sst)
+                out += _rec(0x0007, _u32(j) + _u32(0) + _u32(sst[v]))  # BrtCellIsst
+            elif isinstance(v, int) and -(1 << 29) <= v < (1 << 29):
+                out += _rec(0x0002, _u32(j) + _u32(0) + _u32(((v << 2) | 2) & 0xFFFFFFFF))  # RK integer
+            else:
+                out += _rec(0x0005, _u32(j) + _u32(0) + _f64(v))  # BrtCellReal
+    out += _rec(0x0092)  # BrtEndSheetData
+    return out + _rec(0x0082)  # BrtEndSheet
+
+
+def write_xlsb(rows):
+    sst = {}
+    grid = [list(COLUMNS)] + [[r[c] for c in COLUMNS] for r in rows]
+    sheets = [("Deliveries", xlsb_sheet(grid, sst)), ("Notes", xlsb_sheet([[line] for line in NOTES], sst))]
+    n_refs = sum(1 for g in ([grid] + [[[l] for l in NOTES]]) for r in g for v in r if isinstance(v, str))
+    strings = _rec(0x009F, _u32(n_refs) + _u32(len(sst)))
+    for s in sst:  # dicts keep insertion order = index order
+        strings += _rec(0x0013, _u8(0) + _wstr(s))
+    strings += _rec(0x00A0)
+
+    wb = _rec(0x0083)  # BrtBeginBook
+    wb += _rec(0x0099, _u32(0) + _u32(0) + _wstr(""))  # BrtWbProp: 1900 dates
+    wb += _rec(0x0087) + _rec(0x009E, _u32(0) * 2 + _u32(19200) + _u32(10800) + _u32(600) + _u32(0) * 2
+                              + _u8(0x78)) + _rec(0x0088)  # one book view: scroll bars, sheet tabs
+    wb += _rec(0x008F)
+    for k, (name, _) in enumerate(sheets):
+        wb += _rec(0x009C, _u32(0) + _u32(k + 1) + _wstr(f"rId{k + 1}") + _wstr(name))  # BrtBundleSh
+    wb += _rec(0x0090)
+    # BrtCalcProp: recalcID, fAutoRecalc, cCalcCount, xnumDelta, cUserThreads, flags (fRefA1, fFullPrec)
+    wb += _rec(0x009D, _u32(0) + _u32(1) + _u32(100) + _f64(0.001) + _u32(1) + _u16(0b1010))
+    wb += _rec(0x0084)  # BrtEndBook
+
+    rel_ns = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
+    pkg_ns = "http://schemas.openxmlformats.org/package/2006/relationships"
+    ct = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+          '<Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">'
+          '<Default Extension="bin" ContentType="application/vnd.ms-excel.sheet.binary.macroEnabled.main"/>'
+          '<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>'
+          '<Default Extension="xml" ContentType="application/xml"/>'
+          + "".join(f'<Override PartName="/xl/worksheets/sheet{k + 1}.bin" '
+                    'ContentType="application/vnd.ms-excel.worksheet"/>' for k in range(len(sheets)))
+          + '<Override PartName="/xl/styles.bin" ContentType="application/vnd.ms-excel.styles"/>'
+          '<Override PartName="/xl/sharedStrings.bin" ContentType="application/vnd.ms-excel.sharedStrings"/>'
+          '<Override PartName="/docProps/core.xml" '
+          'ContentType="application/vnd.openxmlformats-package.core-properties+xml"/>'
+          '<Override PartName="/docProps/app.xml" '
+          'ContentType="application/vnd.openxmlformats-officedocument.extended-properties+xml"/>'
+          '</Types>')
+    rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+            f'<Relationships xmlns="{pkg_ns}">'
+            f'<Relationship Id="rId1" Type="{rel_ns}/officeDocument" Target="xl/workbook.bin"/>'
+            '<Relationship Id="rId2" Type="http://schemas.openxmlformats.org/package/2006/relationships/'
+            'metadata/core-properties" Target="docProps/core.xml"/>'
+            f'<Relationship Id="rId3" Type="{rel_ns}/extended-properties" Target="docProps/app.xml"/>'
+            '</Relationships>')
+    n = len(sheets)
+    wb_rels = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+               f'<Relationships xmlns="{pkg_ns}">'
+               + "".join(f'<Relationship Id="rId{k + 1}" Type="{rel_ns}/worksheet" '
+                         f'Target="worksheets/sheet{k + 1}.bin"/>' for k in range(n))
+               + f'<Relationship Id="rId{n + 1}" Type="{rel_ns}/styles" Target="styles.bin"/>'
+               f'<Relationship Id="rId{n + 2}" Type="{rel_ns}/sharedStrings" Target="sharedStrings.bin"/>'
+               '</Relationships>')
+    stamp = FIXED_TIME.strftime("%Y-%m-%dT%H:%M:%SZ")
+    core = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+            '<cp:coreProperties xmlns:cp="http://schemas.openxmlformats.org/package/2006/metadata/core-properties" '
+            'xmlns:dc="http://purl.org/dc/elements/1.1/" xmlns:dcterms="http://purl.org/dc/terms/" '
+            'xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">'
+            '<dc:creator>plumbline tests/reference/make_fixtures.py</dc:creator>'
+            f'<dcterms:created xsi:type="dcterms:W3CDTF">{stamp}</dcterms:created>'
+            f'<dcterms:modified xsi:type="dcterms:W3CDTF">{stamp}</dcterms:modified>'
+            '</cp:coreProperties>')
+    app = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+           '<Properties xmlns="http://schemas.openxmlformats.org/officeDocument/2006/extended-properties">'
+           '<Application>plumbline make_fixtures.py</Application></Properties>')
+    parts = [("[Content_Types].xml", ct.encode()), ("_rels/.rels", rels.encode()),
+             ("xl/workbook.bin", wb), ("xl/_rels/workbook.bin.rels", wb_rels.encode()),
+             ("xl/styles.bin", xlsb_styles()), ("xl/sharedStrings.bin", strings)]
+    parts += [(f"xl/worksheets/sheet{k + 1}.bin", body) for k, (_, body) in enumerate(sheets)]
+    parts += [("docProps/core.xml", core.encode()), ("docProps/app.xml", app.encode())]
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as z:
+        for name, data in parts:
+            z.writestr(name, data)
+    rezip(buf.getvalue(), FILES / "deliveries.xlsb")
+
+
 # ---------------------------------------------------------------- text files
 
 def write_text_files(rows):
@@ -416,13 +617,13 @@ def expected_files(rows, dv):
             "spot": spots}
 
     def wb(sheets, header_row, **kw):
-        d = {"sheets": sheets, "sheet": "Deliveries", "header_row": header_row}
+        d = {"sheets": sheets, "sheet": "Deliveries", "header_row": header_row, "first_data_row": header_row + 1}
         d.update(base)
         d.update(kw)
         return d
 
     def text(**kw):
-        d = {"sheets": None, "sheet": None, "header_row": 1}
+        d = {"sheets": None, "sheet": None, "header_row": 1, "first_data_row": 2}
         d.update(base)
         d.update(kw)
         return d
@@ -433,6 +634,7 @@ def expected_files(rows, dv):
                                     above_header=[[1, "A", "Delivery log, spring"], [2, None, None]]),
         "deliveries.ods": wb(["Deliveries", "Notes"], 1, format="ods"),
         "deliveries.xls": wb(["Deliveries", "Notes"], 1, format="xls"),
+        "deliveries.xlsb": wb(["Deliveries", "Notes"], 1, format="xlsb"),
     }
     cols = ["order_id", "depot", "depot_name", "distance_km", "Päckchen", "driver_grade", "delivered", "minutes"]
     rename = {"parcels": "Päckchen"}
@@ -444,8 +646,8 @@ def expected_files(rows, dv):
     dst = {rename.get(c, c): v for c, v in dist.items()}
     dst["depot_name"] = len({DEPOT_NAMES[r["depot"]] for r in rows})
     sp = [[i, rename.get(c, c), v] for i, c, v in spots]
-    sp.append([0, "depot_name", DEPOT_NAMES[rows[0]["depot"]]])
-    sp.append([next(i for i, r in enumerate(rows) if r["depot"] == 1), "depot_name", DEPOT_NAMES[1]])
+    for d in (1, 2, 3):
+        sp.append([next(i for i, r in enumerate(rows) if r["depot"] == d), "depot_name", DEPOT_NAMES[d]])
     out["deliveries-semicolon-latin1.csv"] = text(
         format="csv", encoding="windows-1252", delimiter=";", decimal=",", line_end="CRLF",
         date_format_in_file="dd.mm.yyyy", columns=cols, missing={c: mis[c] for c in cols},
@@ -464,12 +666,22 @@ def expected_files(rows, dv):
     out["deliveries-paste.txt"] = text(format="paste", encoding="utf-8", delimiter="\t", decimal=",",
                                        line_end="CRLF", quoting=False, date_format_in_file="dd.mm.yyyy")
     out["errors.xlsx"] = {
-        "format": "xlsx", "sheets": ["Errors"], "sheet": "Errors", "header_row": 1,
+        "format": "xlsx", "sheets": ["Errors"], "sheet": "Errors", "header_row": 1, "first_data_row": 2,
         "columns": ["id", "cached_error", "formula_no_cache", "formula_cached"], "rows": len(ERROR_VALUES),
         "missing": {"id": 0, "cached_error": 2, "formula_no_cache": 3, "formula_cached": 2},
         "error_cells": [[i, c, err] for i, (_, err) in ERROR_ROWS.items() for c in ("cached_error", "formula_cached")],
         "formula_cells_without_cached_value": [[0, "formula_no_cache", "=2*21"]]
         + [[i, "formula_no_cache", f] for i, (f, _) in ERROR_ROWS.items()],
+        "warnings": [
+            "column cached_error: 2 cells hold spreadsheet error values (#DIV/0! in sheet row 4, #N/A in sheet "
+            "row 7); they are read as missing",
+            "column formula_no_cache: 3 cells hold formulas without a stored result (sheet rows 2, 4 and 7); "
+            "they are read as missing (a reader that sees only stored values finds them empty)",
+            "column formula_cached: 2 cells hold spreadsheet error values (#DIV/0! in sheet row 4, #N/A in sheet "
+            "row 7); they are read as missing",
+        ],
+        "note": "a spot value that is a string starting with # is an error cell; the cell at [0, formula_cached] "
+                "is the formula =2*21 with its stored result 42",
         "spot": [[0, "id", 1.0], [0, "cached_error", 12.5], [0, "formula_no_cache", None],
                  [0, "formula_cached", 42.0], [1, "formula_no_cache", 7.25], [2, "cached_error", "#DIV/0!"],
                  [5, "formula_cached", "#N/A"], [7, "formula_cached", 9.0]],
@@ -557,11 +769,29 @@ def write_bad():
     dump(BAD / "expected.json", exp)
 
 
+def _json(v, ind=0):
+    """JSON with objects one key a line and lists of scalars on one line."""
+    pad = " " * (ind + 1)
+    if isinstance(v, dict):
+        if not v:
+            return "{}"
+        items = [f"{pad}{json.dumps(k, ensure_ascii=False)}: {_json(x, ind + 1)}" for k, x in v.items()]
+        return "{\n" + ",\n".join(items) + "\n" + " " * ind + "}"
+    if isinstance(v, list) and any(isinstance(x, (dict, list)) for x in v):
+        return "[\n" + ",\n".join(pad + _json(x, ind + 1) for x in v) + "\n" + " " * ind + "]"
+    return json.dumps(v, ensure_ascii=False)
+
+
 def dump(path, obj):
-    path.write_text(json.dumps(obj, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
+    path.write_text(_json(obj) + "\n", encoding="utf-8")
 
 
 # ---------------------------------------------------------------- check
+
+def from_serial(v):
+    """A 1900-system day serial as an ISO date (None stays None)."""
+    return None if v is None else (dt.date(1899, 12, 30) + dt.timedelta(days=int(v))).isoformat()
+
 
 def check():
     exp = json.loads((FILES / "expected.json").read_text(encoding="utf-8"))["files"]
@@ -715,11 +945,33 @@ def check():
                 compare(fname, "calamine", rows[h], rows[h + 1:])
                 exp[fname] = e
                 continue
+            if fname.endswith(".xlsb"):
+                # The Python binding (unlike the calamine crate 0.38, which
+                # gives Data::DateTime) returns xlsb dates as serial numbers.
+                k = e["columns"].index("delivered")
+                for r in rows[h + 1:]:
+                    r[k] = from_serial(r[k])
             compare(fname, "calamine", rows[h], rows[h + 1:])
             if fname == "deliveries-title.xlsx" and (rows[0][0] != "Delivery log, spring" or any(rows[1])):
                 problems.append(f"{fname} (calamine): rows above the header {rows[:2]}")
     except ImportError:
         print("check: python-calamine missing, calamine check skipped")
+
+    try:
+        from pyxlsb import open_workbook as open_xlsb
+
+        e = exp["deliveries.xlsb"]
+        with open_xlsb(str(FILES / "deliveries.xlsb")) as wb:
+            if wb.sheets != e["sheets"]:
+                problems.append(f"deliveries.xlsb (pyxlsb): sheets {wb.sheets}")
+            with wb.get_sheet("Deliveries") as sh:
+                rows = [[norm(c.v) for c in r] for r in sh.rows()]
+        k = e["columns"].index("delivered")
+        for r in rows[1:]:
+            r[k] = from_serial(r[k])  # pyxlsb reads no number formats
+        compare("deliveries.xlsb", "pyxlsb", rows[0], rows[1:])
+    except ImportError:
+        print("check: pyxlsb missing, xlsb skipped for it")
 
     if problems:
         sys.exit("make_fixtures --check failed:\n  " + "\n  ".join(problems))
@@ -732,6 +984,7 @@ def main():
     write_xlsx(rows)
     write_ods(rows)
     write_xls(rows)
+    write_xlsb(rows)
     dv = write_text_files(rows)
     write_errors_xlsx()
     dump(FILES / "expected.json", {

@@ -17,6 +17,7 @@ const el = {
   dataMessage: $('data-message'),
   dataSummary: $('data-summary'),
   dataFacts: $('data-facts'),
+  previewDoubt: $('preview-doubt'),
   preview: $('preview'),
   previewCaption: $('preview-caption'),
   form: $('model-form'),
@@ -89,8 +90,10 @@ const engine = new Engine({
 function splitRecords(text) {
   const records = [];
   let i = 0;
+  let line = 1;
   const n = text.length;
   while (i < n) {
+    const startLine = line;
     const cells = [];
     let cell = '';
     for (;;) {
@@ -101,7 +104,11 @@ function splitRecords(text) {
           if (i >= n) return records; // unclosed; the wasm reader has said so already
           if (text[i] === '"' && text[i + 1] === '"') { cell += '"'; i += 2; }
           else if (text[i] === '"') { i++; break; }
-          else { cell += text[i]; i++; }
+          else {
+            if (text[i] === '\n') line++;
+            cell += text[i];
+            i++;
+          }
         }
         while (i < n && text[i] !== ',' && text[i] !== '\n' && text[i] !== '\r') { cell += text[i]; i++; }
       }
@@ -112,10 +119,11 @@ function splitRecords(text) {
         cells.push(cell);
         if (c === '\r' && text[i + 1] === '\n') i++;
         i++;
+        line++;
         break;
       } else { cell += c; i++; }
     }
-    if (!cells.every((s) => s.trim() === '')) records.push(cells);
+    if (!cells.every((s) => s.trim() === '')) records.push({ line: startLine, cells });
   }
   return records;
 }
@@ -137,7 +145,7 @@ function readPreview(bytes) {
   let text = new TextDecoder('utf-8').decode(bytes);
   if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
   const records = splitRecords(text);
-  const columns = nameColumns(records[0] || []);
+  const columns = nameColumns(records.length ? records[0].cells : []);
   return { columns, rowCount: Math.max(0, records.length - 1), preview: records.slice(1, 1 + PREVIEW_ROWS) };
 }
 
@@ -165,7 +173,22 @@ async function loadBytes(name, bytes) {
     return false;
   }
   const p = readPreview(bytes);
-  state.data = { name, bytes, ...p };
+  // The preview reads plain comma-separated text; the wasm reader also
+  // finds other delimiters and title rows. Ask it whether the first and last
+  // names are its own, and say so when they are not.
+  let doubt = false;
+  try {
+    const probe = [...new Set([p.columns[0], p.columns[p.columns.length - 1]])].filter(Boolean);
+    for (const c of probe) if (!(await engine.hasColumn(bytes, quoteName(c)))) doubt = true;
+  } catch (_) {
+    doubt = false; // the engine has said what went wrong
+  }
+  state.data = { name, bytes, ...p, doubt };
+  // A fit still running was for the data before; its answer is dropped.
+  if (el.fitButton.disabled) {
+    state.fitSeq += 1;
+    finishBusy('');
+  }
   renderData();
   clearResult();
   clearMessage(el.modelMessage);
@@ -214,6 +237,8 @@ function renderData() {
   strong.textContent = d.name;
   el.dataFacts.append(strong, `: ${plural(d.rowCount, 'row')} of data, ${plural(d.columns.length, 'column')}.`);
 
+  el.previewDoubt.hidden = !d.doubt;
+
   const shown = d.preview.length;
   el.previewCaption.textContent = shown < d.rowCount ? `The first ${shown} of ${d.rowCount} rows` : `All ${d.rowCount} rows`;
   const thead = el.preview.tHead;
@@ -221,11 +246,11 @@ function renderData() {
   thead.textContent = '';
   tbody.textContent = '';
   const hr = thead.insertRow();
-  addCell(hr, 'th', 'Row', { scope: 'col', className: 'rownum' });
+  addCell(hr, 'th', 'File row', { scope: 'col', className: 'rownum', title: 'The row of the file, counting the header as row 1, as messages and results count them' });
   for (const c of d.columns) addCell(hr, 'th', c, { scope: 'col' });
-  d.preview.forEach((cells, i) => {
+  d.preview.forEach(({ line, cells }) => {
     const tr = tbody.insertRow();
-    addCell(tr, 'th', String(i + 1), { scope: 'row', className: 'rownum' });
+    addCell(tr, 'th', String(line), { scope: 'row', className: 'rownum' });
     for (const c of cells) {
       const td = addCell(tr, 'td', c);
       if (c.trim() === '') { td.className = 'blank'; td.title = 'empty cell'; }
@@ -650,6 +675,10 @@ window.addEventListener('drop', (e) => {
 window.plumblineTest = {
   fit(csvText, request) {
     return engine.fit(new TextEncoder().encode(csvText), request);
+  },
+  /** As fit, for raw bytes (a file that is not text, say). */
+  fitBytes(bytes, request) {
+    return engine.fit(bytes, request);
   },
   crashWorker() {
     engine.crashForTest();

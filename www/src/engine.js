@@ -172,6 +172,16 @@ export class Engine {
     return { ok: true };
   }
 
+  /**
+   * Whether the wasm reader finds a column of this name (written as a term)
+   * in the bytes: an intercept-only fit of it fails with "There is no
+   * column called ..." only when it does not.
+   */
+  async hasColumn(bytes, termText) {
+    const r = await this.fit(bytes, { response: termText, terms: '', intercept: true });
+    return !(r && typeof r.error === 'string' && r.error.startsWith('There is no column called'));
+  }
+
   /** Test hook: the worker answers as if the wasm had panicked. */
   pretendPanicForTest() {
     return this.send({ type: 'pretend-panic' });
