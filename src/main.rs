@@ -18,7 +18,8 @@ Usage:
   plumbline sheets FILE
 
 FILE may be CSV or other delimited text (the delimiter, decimal mark and
-encoding are found), or a workbook: xlsx, xlsm, xlsb, xls, ods.
+encoding are found), or a workbook: xlsx, xlsm, xlsb, xls, ods. FILE \"-\"
+reads cells pasted from a spreadsheet on standard input.
 Every command that reads FILE accepts:
   --sheet NAME      the sheet of a workbook (default: the first with data)
   --header-row N    the row that holds the column names (default: found)
@@ -185,8 +186,16 @@ fn run_fit(args: &[String]) -> Result<String, Failure> {
     }
 }
 
+/// Reads FILE, or with "-" a block pasted on standard input.
 fn load_table(path: &str, read: &RawReadArgs) -> Result<Loaded, Failure> {
     let options = read.options()?;
+    if path == "-" {
+        let mut text = String::new();
+        std::io::Read::read_to_string(&mut std::io::stdin(), &mut text)
+            .map_err(|e| Failure::data(format!("Could not read the pasted cells from standard input: {e}.")))?;
+        return plumbline::read::read_paste(&text, &options)
+            .map_err(|e| Failure::data(format!("Could not read the pasted cells: {e}")));
+    }
     let bytes = std::fs::read(path).map_err(|e| Failure::data(format!("Could not open \"{path}\": {e}.")))?;
     read_table(&bytes, &options).map_err(|e| Failure::data(format!("Could not read \"{path}\": {e}")))
 }
