@@ -1,13 +1,17 @@
 //! The WebAssembly binding: converts and calls, holds no statistics.
 //!
-//! Every export takes plain bytes and JSON text and returns JSON text of
-//! the form `{"ok": ...}` or `{"error": "plain words"}`, so that no error
-//! and no panic crosses into JavaScript as an exception.
+//! Every export takes bytes or text and a JSON request, and returns JSON
+//! text: `{"ok": ...}` or `{"error": "plain words", "kind": K}` with K one
+//! of `request` (the request itself is malformed), `read` (the file), `terms`
+//! (the response or terms text) and `model` (the data cannot give this
+//! model). No error and no panic crosses into JavaScript as an exception.
 
 use crate::model::{fit, FitOptions};
-use crate::read::csv::read_csv;
+use crate::profile::{profile_table, Kind, ProfileOptions};
+use crate::read::{read_paste, read_table, Loaded, ReadOptions};
+use crate::schema::LoadSummary;
 use crate::terms::{parse_term, parse_terms, ModelSpec};
-use serde::Deserialize;
+use serde::{Deserialize, Serialize};
 use std::cell::RefCell;
 use wasm_bindgen::prelude::*;
 
@@ -30,7 +34,33 @@ pub fn last_panic() -> Option<String> {
     LAST_PANIC.with(|p| p.borrow().clone())
 }
 
-/// A fit request, as the page sends it.
+/// How to read the bytes, as the page sends it.
+#[derive(Deserialize, Default)]
+#[serde(default)]
+struct ReadRequest {
+    sheet: Option<String>,
+    header_row: Option<usize>,
+    /// The bytes are cells pasted from a spreadsheet.
+    paste: bool,
+}
+
+impl ReadRequest {
+    fn options(&self) -> ReadOptions {
+        ReadOptions { sheet: self.sheet.clone(), header_row: self.header_row, ..ReadOptions::default() }
+    }
+
+    fn load(&self, bytes: &[u8]) -> Result<Loaded, String> {
+        let options = self.options();
+        let loaded = if self.paste {
+            read_paste(&String::from_utf8_lossy(bytes), &options)
+        } else {
+            read_table(bytes, &options)
+        };
+        loaded.map_err(|e| e.to_string())
+    }
+}
+
+/// A fit request.
 #[derive(Deserialize)]
 struct FitRequest {
     response: String,
@@ -44,6 +74,20 @@ struct FitRequest {
     weights: Option<String>,
     #[serde(default)]
     hc3: bool,
+    #[serde(flatten)]
+    read: ReadRequest,
+}
+
+/// An inspect request: how to read, and the kinds the user has set.
+#[derive(Deserialize, Default)]
+#[serde(default)]
+struct InspectRequest {
+    #[serde(flatten)]
+    read: ReadRequest,
+    /// Column name → kind (`numeric`, `coded_category`, ...).
+    kinds: std::collections::BTreeMap<String, String>,
+    /// Rows of the preview (default 50).
+    preview_rows: Option<usize>,
 }
 
 fn yes() -> bool {
@@ -54,38 +98,110 @@ fn default_level() -> f64 {
     0.95
 }
 
-fn ok<T: serde::Serialize>(v: &T) -> String {
-    serde_json::to_string(&serde_json::json!({ "ok": v }))
-        .unwrap_or_else(|e| error(&format!("The result could not be encoded: {e}")))
+#[derive(Serialize)]
+struct Ok<'a, T: Serialize> {
+    ok: &'a T,
 }
 
-fn error(message: &str) -> String {
-    serde_json::json!({ "error": message }).to_string()
+#[derive(Serialize)]
+struct Error<'a> {
+    error: &'a str,
+    kind: &'a str,
 }
 
-/// Fits a model to CSV bytes; `request` is the JSON of a fit request.
+fn ok<T: Serialize>(v: &T) -> String {
+    serde_json::to_string(&Ok { ok: v }).unwrap_or_else(|e| error("model", &format!("The result could not be encoded: {e}")))
+}
+
+fn error(kind: &str, message: &str) -> String {
+    serde_json::to_string(&Error { error: message, kind })
+        .unwrap_or_else(|_| r#"{"error":"An error could not be encoded.","kind":"request"}"#.to_string())
+}
+
+/// The first rows of the table as text, for the page's preview.
+#[derive(Serialize)]
+struct Preview {
+    header: Vec<String>,
+    source_rows: Vec<usize>,
+    rows: Vec<Vec<Option<String>>>,
+}
+
+#[derive(Serialize)]
+struct Inspection {
+    load: LoadSummary,
+    columns: Vec<crate::profile::ColumnProfile>,
+    preview: Preview,
+}
+
+fn cell_text(data: &crate::table::ColumnData, i: usize) -> Option<String> {
+    use crate::table::ColumnData;
+    match data {
+        ColumnData::Numeric(v) => (!v[i].is_nan()).then(|| format!("{}", v[i])),
+        ColumnData::Date(v) => (!v[i].is_nan()).then(|| crate::read::cells::format_date(v[i])),
+        ColumnData::Text(v) => v[i].clone(),
+    }
+}
+
+/// Reads the bytes and returns how they were read, the column profile and
+/// the first rows; `request` is the JSON of an inspect request.
 #[wasm_bindgen]
-pub fn fit_csv(bytes: &[u8], request: &str) -> String {
+pub fn inspect(bytes: &[u8], request: &str) -> String {
+    let req: InspectRequest = match serde_json::from_str(if request.trim().is_empty() { "{}" } else { request }) {
+        Ok(r) => r,
+        Err(e) => return error("request", &format!("The request is not valid: {e}")),
+    };
+    let loaded = match req.read.load(bytes) {
+        Ok(l) => l,
+        Err(e) => return error("read", &format!("Could not read the file: {e}")),
+    };
+    let mut kinds = Vec::new();
+    for (col, k) in &req.kinds {
+        match Kind::parse(k) {
+            Some(kind) => kinds.push((col.clone(), kind)),
+            None => return error("request", &format!("\"{k}\" is not a kind of column.")),
+        }
+    }
+    let profile = profile_table(&loaded.table, &ProfileOptions { kinds });
+    let t = &loaded.table;
+    let n = t.n_rows().min(req.preview_rows.unwrap_or(50));
+    let preview = Preview {
+        header: t.columns.iter().map(|c| c.name.clone()).collect(),
+        source_rows: t.source_rows[..n].to_vec(),
+        rows: (0..n).map(|i| t.columns.iter().map(|c| cell_text(&c.data, i)).collect()).collect(),
+    };
+    ok(&Inspection { load: LoadSummary::of(&loaded), columns: profile.columns, preview })
+}
+
+/// Fits a model; `request` is the JSON of a fit request (with the reading
+/// options `sheet`, `header_row` and `paste`).
+#[wasm_bindgen]
+pub fn fit_bytes(bytes: &[u8], request: &str) -> String {
     let req: FitRequest = match serde_json::from_str(request) {
         Ok(r) => r,
-        Err(e) => return error(&format!("The fit request is not valid: {e}")),
+        Err(e) => return error("request", &format!("The fit request is not valid: {e}")),
     };
-    let table = match read_csv(bytes) {
-        Ok(t) => t,
-        Err(e) => return error(&format!("Could not read the file: {e}")),
+    let table = match req.read.load(bytes) {
+        Ok(l) => l.table,
+        Err(e) => return error("read", &format!("Could not read the file: {e}")),
     };
     let response = match parse_term(&req.response) {
         Ok(t) => t,
-        Err(e) => return error(&format!("In the response: {e}")),
+        Err(e) => return error("terms", &format!("In the response: {e}")),
     };
     let terms = match parse_terms(&req.terms) {
         Ok(t) => t,
-        Err(e) => return error(&format!("In the terms: {e}")),
+        Err(e) => return error("terms", &format!("In the terms: {e}")),
     };
     let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights };
     let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
     match fit(&table, &spec, &options) {
         Ok(f) => ok(&f.report),
-        Err(e) => error(&e.to_string()),
+        Err(e) => error("model", &e.to_string()),
     }
+}
+
+/// The same as [`fit_bytes`], under the name the first page used.
+#[wasm_bindgen]
+pub fn fit_csv(bytes: &[u8], request: &str) -> String {
+    fit_bytes(bytes, request)
 }

@@ -48,7 +48,7 @@ pub fn boxcox_llf(x: &[f64], lambda: f64) -> f64 {
     let sum_log: f64 = x.iter().map(|v| v.ln()).sum();
     let t: Vec<f64> = x.iter().map(|&v| boxcox(v, lambda)).collect();
     let var = variance(&t);
-    if !(var > 0.0) || !var.is_finite() {
+    if var.is_nan() || var <= 0.0 || var.is_infinite() {
         return f64::NEG_INFINITY;
     }
     (lambda - 1.0) * sum_log - n / 2.0 * var.ln()
@@ -60,7 +60,7 @@ pub fn yeojohnson_llf(x: &[f64], lambda: f64) -> f64 {
     let jac: f64 = x.iter().map(|&v| v.signum() * v.abs().ln_1p()).sum();
     let t: Vec<f64> = x.iter().map(|&v| yeojohnson(v, lambda)).collect();
     let var = variance(&t);
-    if !(var > 0.0) || !var.is_finite() {
+    if var.is_nan() || var <= 0.0 || var.is_infinite() {
         return f64::NEG_INFINITY;
     }
     (lambda - 1.0) * jac - n / 2.0 * var.ln()
@@ -161,7 +161,7 @@ pub struct BoxCoxFit {
 /// Fits Box–Cox to positive values (needs at least 3, not all equal).
 /// `None` also when the likelihood interval for λ is wider than [-10, 10].
 pub fn fit_boxcox(x: &[f64], level: f64) -> Option<BoxCoxFit> {
-    if x.len() < 3 || x.iter().any(|&v| !(v > 0.0) || !v.is_finite()) || variance(x) == 0.0 {
+    if x.len() < 3 || x.iter().any(|&v| v.is_nan() || v <= 0.0 || v.is_infinite()) || variance(x) == 0.0 {
         return None;
     }
     let llf = |l: f64| boxcox_llf(x, l);
