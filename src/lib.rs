@@ -21,9 +21,16 @@
 //! assert!((slope.estimate - 1.1).abs() < 1e-12);
 //! ```
 
+// `!(x > 0.0)` is deliberate: it is true for NaN, which is what the checks
+// need. Index loops are kept where several arrays advance together, as in
+// the published algorithms they transcribe.
+#![allow(clippy::neg_cmp_op_on_partial_ord, clippy::needless_range_loop)]
+
+pub mod diagnostics;
 pub mod inference;
 pub mod lstsq;
 pub mod model;
+pub mod plot;
 pub mod profile;
 pub mod read;
 pub mod schema;

@@ -14,6 +14,7 @@ plumbline: linear models from a spreadsheet, computed on this machine
 
 Usage:
   plumbline fit FILE --response R [--terms \"T1, T2, ...\"] [options]
+  plumbline check FILE --response R [--terms \"...\"] [fit options] [--plots DIR]
   plumbline profile FILE [--kind COLUMN=KIND ...] [--json]
   plumbline sheets FILE
 
@@ -35,6 +36,10 @@ Options of fit:
   --json            print the result as JSON
   --help            show this text
 
+check fits the model as fit does, then reports per-row influence,
+collinearity, tests of the assumptions and findings in plain words;
+--plots DIR also writes every diagnostic plot there as PNG.
+
 Options of profile:
   --kind C=K        set the kind of column C, overriding what was found; K is
                     numeric, coded_category, text_category, binary, identifier
@@ -52,6 +57,7 @@ struct RawFitArgs {
     weights: Option<String>,
     hc3: bool,
     json: bool,
+    plots: Option<String>,
     read: RawReadArgs,
 }
 
@@ -120,13 +126,14 @@ fn run(args: &[String]) -> Result<String, Failure> {
     match args.first().map(String::as_str) {
         None | Some("--help") | Some("-h") | Some("help") => Ok(USAGE.to_string()),
         Some("fit") => run_fit(&args[1..]),
+        Some("check") => run_check(&args[1..]),
         Some("profile") => run_profile(&args[1..]),
         Some("sheets") => run_sheets(&args[1..]),
         Some(other) => Err(Failure::usage(format!("There is no command \"{other}\".\n\n{USAGE}"))),
     }
 }
 
-fn parse_fit_args(args: &[String]) -> Result<RawFitArgs, Failure> {
+fn parse_fit_args(args: &[String], command: &str) -> Result<RawFitArgs, Failure> {
     let mut raw = RawFitArgs::default();
     let mut it = args.iter();
     while let Some(a) = it.next() {
@@ -144,13 +151,14 @@ fn parse_fit_args(args: &[String]) -> Result<RawFitArgs, Failure> {
             "--no-intercept" => raw.no_intercept = true,
             "--hc3" => raw.hc3 = true,
             "--json" => raw.json = true,
+            "--plots" => raw.plots = Some(value(a)?),
             "--help" | "-h" => return Err(Failure { code: 0, message: USAGE.to_string() }),
             s if s.starts_with("--") => {
-                return Err(Failure::usage(format!("There is no option \"{s}\" for fit.\n\n{USAGE}")))
+                return Err(Failure::usage(format!("There is no option \"{s}\" for {command}.\n\n{USAGE}")))
             }
             s => {
                 if raw.file.is_some() {
-                    return Err(Failure::usage(format!("fit takes one file, but \"{s}\" was given as well.")));
+                    return Err(Failure::usage(format!("{command} takes one file, but \"{s}\" was given as well.")));
                 }
                 raw.file = Some(s.to_string());
             }
@@ -159,10 +167,20 @@ fn parse_fit_args(args: &[String]) -> Result<RawFitArgs, Failure> {
     Ok(raw)
 }
 
-fn run_fit(args: &[String]) -> Result<String, Failure> {
-    let raw = parse_fit_args(args)?;
-    let file = raw.file.ok_or_else(|| Failure::usage(format!("fit needs a data file.\n\n{USAGE}")))?;
-    let response = raw.response.ok_or_else(|| Failure::usage("fit needs --response, the column to explain."))?;
+/// A validated model request: what `fit` and `check` share.
+struct ModelRequest {
+    spec: ModelSpec,
+    options: FitOptions,
+    loaded: Loaded,
+    json: bool,
+    plots: Option<String>,
+}
+
+fn model_request(args: &[String], command: &str) -> Result<ModelRequest, Failure> {
+    let raw = parse_fit_args(args, command)?;
+    let file = raw.file.ok_or_else(|| Failure::usage(format!("{command} needs a data file.\n\n{USAGE}")))?;
+    let response =
+        raw.response.ok_or_else(|| Failure::usage(format!("{command} needs --response, the column to explain.")))?;
     let response = parse_term(&response).map_err(|e| Failure::usage(format!("In --response: {e}")))?;
     let terms = parse_terms(raw.terms.as_deref().unwrap_or("")).map_err(|e| Failure::usage(format!("In --terms: {e}")))?;
     let mut options = FitOptions { hc3: raw.hc3, ..FitOptions::default() };
@@ -174,16 +192,62 @@ fn run_fit(args: &[String]) -> Result<String, Failure> {
             .filter(|v| *v > 0.0 && *v < 1.0)
             .ok_or_else(|| Failure::usage(format!("--level must be a number between 0 and 1, such as 0.95, not \"{l}\".")))?;
     }
+    if raw.plots.is_some() && command != "check" {
+        return Err(Failure::usage(format!("--plots belongs to check, not {command}.")));
+    }
     let spec = ModelSpec { response, terms, intercept: !raw.no_intercept, weights: raw.weights };
-    let table = load_table(&file, &raw.read)?.table;
-    let fitted = fit(&table, &spec, &options).map_err(|e| Failure::data(e.to_string()))?;
-    if raw.json {
-        let mut s = serde_json::to_string_pretty(&fitted.report).map_err(|e| Failure::data(e.to_string()))?;
-        s.push('\n');
-        Ok(s)
+    let loaded = load_table(&file, &raw.read)?;
+    Ok(ModelRequest { spec, options, loaded, json: raw.json, plots: raw.plots })
+}
+
+fn to_json<T: serde::Serialize>(v: &T) -> Result<String, Failure> {
+    let mut s = serde_json::to_string_pretty(v).map_err(|e| Failure::data(e.to_string()))?;
+    s.push('\n');
+    Ok(s)
+}
+
+fn run_fit(args: &[String]) -> Result<String, Failure> {
+    let req = model_request(args, "fit")?;
+    let fitted = fit(&req.loaded.table, &req.spec, &req.options).map_err(|e| Failure::data(e.to_string()))?;
+    if req.json {
+        to_json(&fitted.report)
     } else {
         Ok(plumbline::text::render_fit(&fitted.report))
     }
+}
+
+fn run_check(args: &[String]) -> Result<String, Failure> {
+    let req = model_request(args, "check")?;
+    let table = &req.loaded.table;
+    let fitted = fit(table, &req.spec, &req.options).map_err(|e| Failure::data(e.to_string()))?;
+    let report = plumbline::diagnostics::check(&fitted, &req.spec, table.sheet.as_deref());
+    let mut out = if req.json { to_json(&report)? } else { plumbline::text::render_check(&report, table.sheet.as_deref()) };
+    if let Some(dir) = &req.plots {
+        let written = write_plots(&report, table, &fitted, dir)?;
+        if !req.json {
+            out.push_str(&format!("\nPlots written to {dir}: {}\n", written.join(", ")));
+        }
+    }
+    Ok(out)
+}
+
+fn write_plots(
+    report: &plumbline::diagnostics::CheckReport,
+    table: &plumbline::table::Table,
+    fitted: &plumbline::model::Fitted,
+    dir: &str,
+) -> Result<Vec<String>, Failure> {
+    std::fs::create_dir_all(dir).map_err(|e| Failure::data(format!("Could not create the folder \"{dir}\": {e}.")))?;
+    let plots = plumbline::plot::data::all_plots(report, fitted, table);
+    let mut written = Vec::new();
+    for p in &plots {
+        let png = plumbline::plot::png::render_png(p, 900, 640).map_err(|e| Failure::data(e.to_string()))?;
+        let name = format!("{}.png", p.file_stem());
+        let path = std::path::Path::new(dir).join(&name);
+        std::fs::write(&path, png).map_err(|e| Failure::data(format!("Could not write \"{}\": {e}.", path.display())))?;
+        written.push(name);
+    }
+    Ok(written)
 }
 
 /// Reads FILE, or with "-" a block pasted on standard input.

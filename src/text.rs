@@ -3,6 +3,7 @@
 //! fits, how it was computed, notes, cautions, and then every number again
 //! at full precision (17 significant digits) for scripts and checks.
 
+use crate::diagnostics::CheckReport;
 use crate::schema::{FitReport, ProfileReport};
 use std::fmt::Write;
 
@@ -180,6 +181,109 @@ pub fn render_fit(r: &FitReport) -> String {
         ("BIC", r.bic),
     ] {
         let _ = writeln!(s, "  {name}: {}", full(v));
+    }
+    s
+}
+
+/// Lays out rows of cells in aligned columns: the first left-aligned,
+/// the rest right-aligned.
+fn table_lines(rows: &[Vec<String>], indent: &str) -> String {
+    let cols = rows.iter().map(Vec::len).max().unwrap_or(0);
+    let widths: Vec<usize> = (0..cols).map(|j| rows.iter().filter_map(|r| r.get(j)).map(|c| c.chars().count()).max().unwrap_or(0)).collect();
+    let mut s = String::new();
+    for r in rows {
+        let mut line = String::from(indent);
+        for (j, cell) in r.iter().enumerate() {
+            if j == 0 {
+                let _ = write!(line, "{:<w$}", cell, w = widths[0]);
+            } else {
+                let _ = write!(line, "  {:>w$}", cell, w = widths[j]);
+            }
+        }
+        let _ = writeln!(s, "{}", line.trim_end());
+    }
+    s
+}
+
+/// Renders the checks of a model as text.
+pub fn render_check(c: &CheckReport, sheet: Option<&str>) -> String {
+    let mut s = String::new();
+    let f = &c.fit;
+    let _ = writeln!(s, "Checks of the model of {}", f.response);
+    let _ = writeln!(s, "  terms: {}", if f.terms.is_empty() { "none".into() } else { f.terms.join(", ") });
+    let _ = writeln!(s, "  rows: {} used, {} left out; R² {}, adjusted R² {}", f.n, f.n_dropped, short(f.r_squared, 4), short(f.adj_r_squared, 4));
+
+    let _ = writeln!(s, "\nWhat the checks found, most important first");
+    for x in &c.findings {
+        let tag = match x.severity {
+            3 => "act",
+            2 => "look",
+            1 => "note",
+            _ => "ok",
+        };
+        let _ = writeln!(s, "  [{tag}] {}", x.text);
+    }
+
+    let _ = writeln!(s, "\nTests on the residuals");
+    let mut rows: Vec<Vec<String>> = vec![vec!["test".into(), "statistic".into(), "p-value".into()]];
+    let n = &c.normality;
+    if let Some(t) = &n.shapiro_wilk {
+        rows.push(vec!["Shapiro–Wilk (normal shape)".into(), format!("W {}", short(t.statistic, 4)), p_value(t.p_value)]);
+    }
+    if let Some(t) = &n.anderson_darling {
+        rows.push(vec!["Anderson–Darling (normal shape)".into(), format!("A*² {}", short(t.adjusted, 4)), p_value(t.p_value)]);
+    }
+    if let Some(t) = &n.jarque_bera {
+        rows.push(vec!["Jarque–Bera (normal shape)".into(), format!("JB {}", short(t.statistic, 4)), p_value(t.p_value)]);
+    }
+    if let Some(t) = &c.breusch_pagan {
+        rows.push(vec!["Breusch–Pagan (constant spread)".into(), format!("LM {} on {} df", short(t.statistic, 4), t.df), p_value(t.p_value)]);
+    }
+    if let Some(t) = &c.durbin_watson {
+        rows.push(vec!["Durbin–Watson (rows in order)".into(), format!("d {}", short(t.statistic, 4)), p_value(t.p_value)]);
+    }
+    if let Some(t) = &c.reset {
+        rows.push(vec!["RESET (missing curvature)".into(), format!("F {} on {} and {} df", short(t.statistic, 4), t.df1, t.df2), p_value(t.p_value)]);
+    }
+    for cv in &c.curvature {
+        rows.push(vec![format!("square of {} added", cv.term), format!("t {}", short(cv.t, 4)), p_value(cv.p_value)]);
+    }
+    s.push_str(&table_lines(&rows, "  "));
+
+    let _ = writeln!(s, "\nOverlap between terms");
+    let mut rows: Vec<Vec<String>> = vec![vec!["term".into(), "columns".into(), "VIF".into(), "GVIF^(1/(2·df))".into()]];
+    for t in &c.collinearity.terms {
+        rows.push(vec![t.term.clone(), t.df.to_string(), t.vif.map_or(String::new(), |v| short(v, 3)), short(t.gvif_adjusted, 3)]);
+    }
+    s.push_str(&table_lines(&rows, "  "));
+    let _ = writeln!(
+        s,
+        "  condition number of the scaled design: {} (predictors alone: {})",
+        short(c.collinearity.condition_number, 3),
+        short(c.collinearity.condition_number_predictors, 3)
+    );
+
+    let _ = writeln!(s, "\nThe most influential rows (by Cook's distance)");
+    let mut idx: Vec<usize> = (0..c.rows.len()).collect();
+    idx.sort_by(|&a, &b| c.rows[b].cooks_distance.total_cmp(&c.rows[a].cooks_distance));
+    let mut rows: Vec<Vec<String>> = vec![["row", "fitted", "residual", "studentized", "leverage", "Cook's D", "DFFITS"].iter().map(|x| x.to_string()).collect()];
+    for &i in idx.iter().take(8) {
+        let r = &c.rows[i];
+        rows.push(vec![
+            crate::diagnostics::findings::row_name(sheet, r.row),
+            short(r.fitted, 4),
+            short(r.residual, 4),
+            short(r.studentized, 3),
+            short(r.leverage, 3),
+            short(r.cooks_distance, 3),
+            short(r.dffits, 3),
+        ]);
+    }
+    s.push_str(&table_lines(&rows, "  "));
+    let _ = writeln!(s, "  PRESS (leave-one-out squared error): {}", short(c.press, 6));
+    let _ = writeln!(s, "\nBefore you rely on this");
+    for x in &f.cautions {
+        let _ = writeln!(s, "  - {x}");
     }
     s
 }

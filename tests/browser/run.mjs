@@ -65,7 +65,13 @@ const { chromium } = require('playwright-core');
 
 const pageUrl = pathToFileURL(pagePath).href;
 const DEMO_RESPONSE = 'log(energy_mwh)';
-const DEMO_TERMS = 'log(floor_area_m2), cat(climate_zone), mean_outdoor_temp_c, mean_outdoor_temp_c^2, cat(hvac_type), retrofit, building_age';
+// The demo's default terms are the column profile's suggestions, in column
+// order, without the identifiers and the response column.
+const DEMO_TERMS = 'cat(climate_zone), log(floor_area_m2), log(occupants), building_age, mean_outdoor_temp_c, cat(hvac_type), retrofit';
+const DEMO_ROWS_LINE = '234 of 240 rows used. Left out: 2 rows with a missing value in occupants (file rows 58, 165); '
+  + '3 rows with a missing value in building_age (file rows 24, 119, 202); 1 row with a missing value in mean_outdoor_temp_c (file row 91).';
+const files = join(root, 'tests', 'data', 'files');
+const demoXlsx = join(root, 'demo-data', 'building-energy.xlsx');
 const COEF_FIELDS = ['estimate', 'std_error', 't', 'p_value', 'ci_low', 'ci_high'];
 
 mkdirSync(shots, { recursive: true });
@@ -97,12 +103,16 @@ async function shot(name) {
   await page.screenshot({ path: join(shots, `${name}.png`), fullPage: true });
 }
 
-function cliFit(file, { response, terms, intercept = true, level, hc3 = false }) {
+function cliFit(file, { response, terms, intercept = true, level, hc3 = false }, input) {
   const args = ['fit', file, '--response', response, '--terms', terms, '--json'];
   if (!intercept) args.push('--no-intercept');
   if (level !== undefined) args.push('--level', String(level));
   if (hc3) args.push('--hc3');
-  return JSON.parse(execFileSync(cliPath, args, { encoding: 'utf8', maxBuffer: 64 << 20 }));
+  return JSON.parse(execFileSync(cliPath, args, { encoding: 'utf8', maxBuffer: 64 << 20, input }));
+}
+
+function cliProfile(file) {
+  return JSON.parse(execFileSync(cliPath, ['profile', file, '--json'], { encoding: 'utf8', maxBuffer: 64 << 20 }));
 }
 
 /** Log relative error: digits of agreement of a with b (absolute when b = 0). */
@@ -149,6 +159,24 @@ async function openFresh(hash = '') {
   // Ready when the worker answers a tiny fit through the test hook.
   const r = await page.evaluate(() => window.plumblineTest.fit('y,x\n1,1\n2,3\n4,4\n', { response: 'y', terms: 'x' }));
   assert.ok(r.ok, `the worker answers a tiny fit: ${JSON.stringify(r)}`);
+}
+
+/** Runs a page action that starts an inspection and waits until the page has its answer. */
+async function afterInspect(action) {
+  const before = await page.evaluate(() => window.plumblineTest.inspectsDone());
+  await action();
+  await page.waitForFunction((n) => window.plumblineTest.inspectsDone() > n, before, { timeout: 20000 });
+}
+
+/** Opens a file through the file input and waits until the page shows it. */
+async function openFile(path, name = path.split('/').pop()) {
+  await page.setInputFiles('#file-input', { name, mimeType: 'application/octet-stream', buffer: readFileSync(path) });
+  await page.locator('#data-facts').filter({ hasText: name }).waitFor({ timeout: 15000 });
+}
+
+/** The row of the Columns panel for a column. */
+function columnRow(name) {
+  return page.locator(`#columns-table tbody tr[data-column="${name}"]`);
 }
 
 /** Runs a page action that starts a fit and waits until the page has its answer. */
@@ -276,8 +304,18 @@ test('the demo opens with one click and its fit equals the native CLI', { timeou
     ['F statistic', 'f_statistic'], ['p-value of F', 'f_p_value'], ['AIC', 'aic'], ['BIC', 'bic'], ['Log-likelihood', 'log_likelihood']]) {
     assert.ok(relClose(fromFull(figures[label]), cli[key], 1e-9), `${label}: page ${figures[label]}, CLI ${cli[key]}`);
   }
-  assert.match(await page.textContent('#fit-figures'), /236 of 240/);
-  assert.match(await page.textContent('#rows-line'), /236 of 240 rows used\. Left out: 1 row with a missing value in mean_outdoor_temp_c \(file row 91\); 3 rows with a missing value in building_age \(file rows 24, 119, 202\)\./);
+  assert.match(await page.textContent('#fit-figures'), /234 of 240/);
+  assert.equal(await page.textContent('#rows-line'), DEMO_ROWS_LINE);
+
+  // The default terms are the profile's own suggestions (the CLI's profile
+  // of the same file), identifiers and the response left out.
+  const profile = cliProfile(demoCsv);
+  const fromProfile = profile.columns.filter((c) => c.offer_as_predictor && c.name !== 'energy_mwh').map((c) => {
+    if (c.kind === 'coded_category' || c.kind === 'text_category') return `cat(${c.name})`;
+    if (c.kind === 'numeric' && c.suggested_transform) return c.suggested_transform.term;
+    return c.name;
+  });
+  assert.equal(fromProfile.join(', '), DEMO_TERMS, 'the demo terms are the profile\'s suggestions');
 
 
   const cautions = await page.$$eval('#cautions-list li', (lis) => lis.map((l) => l.textContent));
@@ -386,6 +424,7 @@ test('a header like <img src=x onerror=alert(1)> shows as text and runs nothing'
   await page.setInputFiles('#file-input', { name: '<b>evil</b>.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) });
   await page.locator('#preview thead th').nth(1).waitFor({ timeout: 10000 });
   assert.equal(await page.textContent('#preview thead th:nth-child(2)'), evil);
+  assert.equal(await page.textContent('#columns-table tbody tr:first-child th'), evil, 'the Columns panel shows the name as text');
   assert.match(await page.textContent('#data-facts'), /<b>evil<\/b>\.csv/);
   await page.selectOption('#response-column', 'y');
   await page.fill('#terms', `"${evil}"`);
@@ -400,18 +439,19 @@ test('a header like <img src=x onerror=alert(1)> shows as text and runs nothing'
   assert.deepEqual(foreignRequests(), [], 'nothing was requested');
 });
 
-test('a file dropped on the page opens; a workbook is refused in plain words', { timeout: 60000 }, async () => {
+test('a file dropped on the page opens, a workbook too; a broken workbook is refused in plain words', { timeout: 60000 }, async () => {
   await openFresh();
-  const drop = (name, text) => page.evaluate(([n, t]) => {
+  const drop = (name, b64) => page.evaluate(([n, data]) => {
+    const bytes = Uint8Array.from(atob(data), (c) => c.charCodeAt(0));
     const dt = new DataTransfer();
-    dt.items.add(new File([t], n, { type: 'text/csv' }));
+    dt.items.add(new File([bytes], n));
     document.getElementById('drop-zone').dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
-  }, [name, text]);
+  }, [name, Buffer.from(b64).toString('base64')]);
   await drop('dropped.csv', '"floor area",y\n1,2\n2,4.5\n3,5\n4,8.5\n');
   await page.locator('#data-facts').filter({ hasText: 'dropped.csv' }).waitFor({ timeout: 10000 });
   assert.match(await page.textContent('#data-facts'), /4 rows of data, 2 columns/);
   assert.equal(await page.getAttribute('#column-buttons button:first-child', 'title'), 'Add "floor area" to the terms');
-  assert.ok(await page.isHidden('#preview-doubt'), 'a plain CSV raises no doubt about the preview');
+  assert.equal(await page.locator('#preview-doubt').count(), 0, 'the old preview note is gone');
 
   // The preview numbers rows as the file does (header = row 1), as messages do.
   await drop('lines.csv', 'name,y\n"two\nlines",1\n\nz,3\nw,4\n');
@@ -419,19 +459,249 @@ test('a file dropped on the page opens; a workbook is refused in plain words', {
   assert.deepEqual(await page.$$eval('#preview tbody th', (ths) => ths.map((t) => t.textContent)), ['2', '5', '6']);
   assert.match(await page.textContent('#data-facts'), /3 rows of data, 2 columns/);
 
-  // A file the preview reads otherwise than the wasm does gets a note, when
-  // (and only when) the wasm reader finds other column names.
-  const semi = 'a;b\n1,5;2\n3;4\n5;7\n';
-  const wasmSees = await page.evaluate((t) => window.plumblineTest.fit(t, { response: 'a', terms: '' }), semi);
-  const wasmFindsA = !(wasmSees.error && wasmSees.error.startsWith('There is no column called'));
-  await drop('semicolons.csv', semi);
-  await page.locator('#data-facts').filter({ hasText: 'semicolons.csv' }).waitFor({ timeout: 10000 });
-  assert.equal(await page.isVisible('#preview-doubt'), wasmFindsA, `the note shows exactly when the wasm reads columns the preview does not (wasm finds "a": ${wasmFindsA})`);
-  if (wasmFindsA) await shot('05b-preview-doubt');
+  // A workbook dropped opens too, with its sheets to choose from.
+  await drop('deliveries.xlsx', readFileSync(join(files, 'deliveries.xlsx')));
+  await page.locator('#data-facts').filter({ hasText: 'deliveries.xlsx' }).waitFor({ timeout: 10000 });
+  assert.match(await page.textContent('#data-facts'), /30 rows of data, 7 columns/);
+  assert.ok(await page.isVisible('#sheet-select'), 'a workbook of two sheets gets a sheet chooser');
+  assert.deepEqual(await page.$$eval('#sheet-select option', (os) => os.map((o) => o.value)), ['Deliveries', 'Notes']);
+  assert.equal(await page.inputValue('#sheet-select'), 'Deliveries');
+  assert.match(await page.textContent('#read-line'), /Sheet Deliveries, header on row 1\./);
+  assert.equal(await page.textContent('#preview thead th:first-child'), 'Sheet row');
 
+  // Choosing the other sheet reads it.
+  await afterInspect(() => page.selectOption('#sheet-select', 'Notes'));
+  await page.locator('#read-line').filter({ hasText: 'Sheet Notes' }).waitFor({ timeout: 10000 });
+  assert.match(await page.textContent('#data-facts'), /deliveries\.xlsx.*3 rows of data, 1 column\./);
+  assert.equal(await page.locator('#columns-table tbody tr').count(), 1, 'the Columns panel lists the sheet\'s one column');
+  await shot('10-sheet-chooser');
+  await afterInspect(() => page.selectOption('#sheet-select', 'Deliveries'));
+  await page.locator('#data-facts').filter({ hasText: '7 columns' }).waitFor({ timeout: 10000 });
+
+  // Bytes named .xlsx that are no workbook: the reader's words, and the data stay.
   await drop('book.xlsx', 'PK');
-  assert.match(await visibleText('#data-message'), /"book\.xlsx" is a workbook; .*Save the sheet as CSV/);
-  assert.match(await page.textContent('#data-facts'), /semicolons\.csv/, 'the dropped data stay');
+  const msg = await visibleText('#data-message');
+  const why = (await page.evaluate(() => window.plumblineTest.inspect('PK'))).error;
+  assert.match(why, /^Could not read the file: /);
+  assert.ok(msg.startsWith('"book.xlsx" could not be opened: '), msg);
+  assert.ok(msg.includes(why.replace(/^Could not read the file: /, '')), `the wasm's words (${why})`);
+  assert.match(msg, /"deliveries\.xlsx"\) are still loaded/);
+  assert.match(await page.textContent('#data-facts'), /deliveries\.xlsx/, 'the dropped data stay');
+});
+
+test('an xlsx with a title above the header opens through the file input, header on row 3', { timeout: 60000 }, async () => {
+  await openFresh();
+  await openFile(join(files, 'deliveries-title.xlsx'));
+  assert.match(await page.textContent('#data-facts'), /deliveries-title\.xlsx: 30 rows of data, 7 columns\./);
+  assert.equal(await page.inputValue('#header-row'), '3');
+  assert.equal(await page.textContent('#read-line'), 'Read as: Sheet Deliveries, header on row 3; 1 row above it skipped.');
+  assert.ok(await page.isHidden('#sheet-select'), 'one sheet: no chooser');
+  const header = await page.$$eval('#preview thead th', (ths) => ths.map((t) => t.textContent));
+  assert.deepEqual(header, ['Sheet row', 'order_id', 'depot', 'distance_km', 'parcels', 'driver_grade', 'delivered', 'minutes']);
+  assert.equal(await page.textContent('#preview tbody tr:first-child th'), '4', 'the first data row is sheet row 4');
+  assert.equal(await page.locator('#columns-table tbody tr').count(), 7);
+  assert.deepEqual(await page.$$eval('#response-column option', (os) => os.slice(1).map((o) => o.value)), header.slice(1));
+  await shot('11-xlsx-title-rows');
+
+  // A header row that cannot be: the wasm's words; the data stay as read.
+  await afterInspect(async () => {
+    await page.fill('#header-row', '99');
+    await page.press('#header-row', 'Enter');
+  });
+  const msg = await visibleText('#data-message');
+  assert.match(msg, /Row 99 cannot be the header/);
+  assert.match(msg, /The data stay as they were read before/);
+  assert.equal(await page.inputValue('#header-row'), '3');
+  assert.match(await page.textContent('#data-facts'), /30 rows of data, 7 columns/);
+  await shot('12-header-row-refused');
+
+  // Another header row the user chooses is read (row 1, the title, gives one named column).
+  await afterInspect(async () => {
+    await page.fill('#header-row', '1');
+    await page.press('#header-row', 'Enter');
+  });
+  assert.equal(await page.inputValue('#header-row'), '1');
+  assert.match(await page.textContent('#read-line'), /header on row 1\./);
+  assert.equal(await page.textContent('#preview thead th:nth-child(2)'), 'Delivery log, spring');
+  assert.ok((await page.locator('#read-warnings li').count()) > 0, 'the reader\'s warnings are listed');
+  assert.ok(await page.isVisible('#read-warnings-block'));
+  assert.equal(await page.getAttribute('#read-warnings-block', 'aria-live'), 'polite');
+  await shot('13-header-row-1-warnings');
+
+  // Fits read the file as the page shows it: with the header on row 3 again.
+  await afterInspect(async () => {
+    await page.fill('#header-row', '3');
+    await page.press('#header-row', 'Enter');
+  });
+  await page.selectOption('#response-column', 'minutes');
+  await page.selectOption('#response-transform', '');
+  await page.fill('#terms', 'distance_km, cat(depot)');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(5);
+  const cli = cliFit(join(files, 'deliveries-title.xlsx'), { response: 'minutes', terms: 'distance_km, cat(depot)' });
+  const rows = await coefTableFromPage();
+  cli.coefficients.forEach((c, i) => assert.ok(relClose(fromFull(rows[i].cells[0].full), c.estimate, 1e-12), `${c.term}`));
+  assert.match(await page.textContent('#rows-line'), /\(sheet rows? /, 'rows left out are counted as sheet rows');
+});
+
+test('the demo workbook fits to the same coefficients as the demo CSV', { timeout: 60000 }, async () => {
+  await openFresh();
+  await openFile(demoXlsx);
+  assert.match(await page.textContent('#data-facts'), /building-energy\.xlsx: 240 rows of data, 10 columns\./);
+  assert.equal(await page.textContent('#read-line'), 'Read as: Sheet Buildings, header on row 3; 1 row above it skipped.');
+  await page.selectOption('#response-column', 'energy_mwh');
+  await page.selectOption('#response-transform', 'log');
+  await page.click('#suggested-button');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS, 'the suggested terms are those of the demo CSV');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  const rows = await coefTableFromPage();
+  let worst = Infinity;
+  rows.forEach((row, i) => {
+    const c = cli.coefficients[i];
+    assert.equal(row.term, c.term);
+    COEF_FIELDS.forEach((f, j) => {
+      const v = fromFull(row.cells[j].full);
+      assert.ok(relClose(v, c[f], 1e-12), `${c.term} ${f}: workbook ${v}, CSV ${c[f]}`);
+      worst = Math.min(worst, lre(v, c[f]));
+    });
+  });
+  // And against the wasm's own fit of the CSV (the same path, the same arithmetic).
+  const wasmCsv = await page.evaluate(([response, terms]) => window.plumblineTest.fit(
+    document.getElementById('plumbline-demo').textContent, { response, terms }), [DEMO_RESPONSE, DEMO_TERMS]);
+  assert.ok(wasmCsv.ok);
+  let worstWasm = Infinity;
+  rows.forEach((row, i) => COEF_FIELDS.forEach((f, j) => {
+    const v = fromFull(row.cells[j].full);
+    assert.ok(relClose(v, wasmCsv.ok.coefficients[i][f], 1e-12), `${row.term} ${f}: workbook ${v}, CSV in the page ${wasmCsv.ok.coefficients[i][f]}`);
+    worstWasm = Math.min(worstWasm, lre(v, wasmCsv.ok.coefficients[i][f]));
+  }));
+  const digits = (v) => (v === Infinity ? 'identical' : `${v.toFixed(1)} digits`);
+  console.log(`  demo workbook in the page vs demo CSV: native CLI ${digits(worst)}, in the page ${digits(worstWasm)}`);
+  assert.match(await page.textContent('#rows-line'), /1 row with a missing value in mean_outdoor_temp_c \(sheet row 93\)/);
+  await shot('14-demo-workbook-fitted');
+});
+
+test('a semicolon-separated Latin-1 CSV with decimal commas shows its eight columns', { timeout: 60000 }, async () => {
+  await openFresh();
+  const path = join(files, 'deliveries-semicolon-latin1.csv');
+  await openFile(path);
+  assert.match(await page.textContent('#data-facts'), /30 rows of data, 8 columns\./);
+  assert.equal(await page.textContent('#read-line'), 'Read as: Text, semicolon-separated, decimal comma, Windows-1252.');
+  const header = await page.$$eval('#preview thead th', (ths) => ths.slice(1).map((t) => t.textContent));
+  assert.deepEqual(header, ['order_id', 'depot', 'depot_name', 'distance_km', 'Päckchen', 'driver_grade', 'delivered', 'minutes']);
+  assert.equal(await page.textContent('#preview tbody tr:nth-child(1) td:nth-child(4)'), 'Zürich-Süd');
+  assert.equal(await page.textContent('#preview tbody tr:nth-child(5) td:nth-child(5)'), '6.5', 'decimal comma read as a number');
+  assert.equal(await columnRow('Päckchen').locator('select').inputValue(), 'numeric');
+  assert.equal(await page.getAttribute('#column-buttons button:nth-child(5)', 'title'), 'Add Päckchen to the terms');
+  // The hook's inspect is the page's.
+  const hooked = await page.evaluate((b64) => window.plumblineTest.inspect(Uint8Array.from(atob(b64), (c) => c.charCodeAt(0)), {}),
+    readFileSync(path).toString('base64'));
+  assert.deepEqual(hooked.ok.preview.header, header);
+  assert.equal(hooked.ok.load.encoding, 'Windows-1252');
+  await page.selectOption('#response-column', 'minutes');
+  await page.fill('#terms', 'distance_km, Päckchen');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(3);
+  await shot('15-semicolon-latin1');
+});
+
+test('pasted cells load, and fits read them as pasted cells', { timeout: 60000 }, async () => {
+  await openFresh();
+  const text = readFileSync(join(files, 'deliveries-paste.txt'), 'utf8');
+  await page.fill('#paste-text', text);
+  await page.click('#paste-button');
+  await page.locator('#data-facts').filter({ hasText: 'Pasted cells' }).waitFor({ timeout: 10000 });
+  assert.match(await page.textContent('#data-facts'), /Pasted cells: 30 rows of data, 7 columns\./);
+  assert.equal(await page.textContent('#read-line'), 'Read as: Pasted cells, tab-separated, decimal comma.');
+  assert.equal(await page.textContent('#preview thead th:first-child'), 'Pasted row');
+  assert.equal(await page.locator('#preview tbody tr').count(), 10);
+  assert.equal(await page.textContent('#preview tbody tr:nth-child(1) td:nth-child(4)'), '23.4', 'decimal comma read as a number');
+  await page.selectOption('#response-column', 'minutes');
+  await page.fill('#terms', 'distance_km, parcels');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(3);
+  const cli = cliFit('-', { response: 'minutes', terms: 'distance_km, parcels' }, text);
+  const rows = await coefTableFromPage();
+  cli.coefficients.forEach((c, i) => assert.ok(relClose(fromFull(rows[i].cells[0].full), c.estimate, 1e-12), `${c.term}`));
+  assert.ok(await page.textContent('#rows-line').then((t) => t.startsWith(`${cli.n} of 30 rows used.`)));
+  await shot('16-pasted-cells');
+
+  // An empty box: a plain message, and the pasted data stay.
+  await page.fill('#paste-text', '  ');
+  await page.click('#paste-button');
+  assert.match(await visibleText('#data-message'), /no pasted cells to use/);
+  assert.match(await page.textContent('#data-facts'), /Pasted cells: 30 rows/);
+});
+
+test('the Columns panel: kinds, reasons, Add, Add as is, Undo and a kind set by the user', { timeout: 60000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  const zone = columnRow('climate_zone');
+  assert.equal(await zone.locator('select').inputValue(), 'coded_category');
+  assert.equal(await zone.locator('select option:checked').textContent(), 'coded category');
+  assert.match(await zone.locator('td.reason').textContent(), /twice/);
+  assert.equal(await zone.locator('td.suggest').textContent(), 'cat(climate_zone)');
+  for (const id of ['building_id', 'site_code']) {
+    assert.equal(await columnRow(id).locator('td.actions').textContent(), 'left out: labels rows');
+    assert.equal(await columnRow(id).locator('button').count(), 0, `${id} has no Add button`);
+  }
+  assert.equal(await columnRow('floor_area_m2').locator('td.num').nth(2).textContent(), '14.7', 'the skewness, rounded');
+  assert.equal(await columnRow('building_age').locator('button').count(), 1, 'no Add as is without a suggested transform');
+  assert.equal(await columnRow('energy_mwh').locator('td.actions').textContent(), 'the response', 'the response is not offered as a term');
+  assert.equal(await columnRow('energy_mwh').locator('td.suggest').textContent(), 'log(energy_mwh)');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS);
+
+  // Add, and Undo.
+  assert.ok(await page.isDisabled('#undo-button'), 'nothing to undo yet');
+  await page.fill('#terms', 'log(floor_area_m2)');
+  await zone.locator('button.add').click();
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone)');
+  assert.match(await page.textContent('#columns-status'), /Added cat\(climate_zone\)/);
+  assert.ok(await page.isVisible('#stale-note'), 'the result is marked as out of date');
+  await columnRow('occupants').locator('button.add-plain').click();
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone), occupants');
+  await columnRow('hvac_type').locator('button.add').click();
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone), occupants, cat(hvac_type)');
+  await zone.locator('button.add').click();
+  assert.match(await page.textContent('#columns-status'), /already in the terms/);
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone), occupants, cat(hvac_type)', 'no term twice');
+  await page.click('#undo-button');
+  await page.click('#undo-button');
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone)');
+  await page.click('#undo-button');
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2)', 'Undo removes cat(climate_zone)');
+  assert.ok(await page.isDisabled('#undo-button'), 'everything undone');
+  await page.screenshot({ path: join(shots, '17-columns-panel-1366x768.png'), fullPage: false, clip: await page.locator('#columns').boundingBox() });
+
+  // Changing a kind inspects again and says who set it.
+  await afterInspect(() => zone.locator('select').selectOption('numeric'));
+  await zone.locator('.by-you').waitFor({ timeout: 10000 });
+  assert.equal(await zone.locator('.by-you').textContent(), 'set by you');
+  assert.equal(await zone.locator('select').inputValue(), 'numeric');
+  assert.equal(await zone.locator('td.reason').textContent(), 'Set by you to numeric.');
+  assert.equal(await page.evaluate(() => document.activeElement && document.activeElement.dataset.column), 'climate_zone', 'focus stays on the kind');
+  assert.ok(await columnRow('building_id').locator('.by-you').count() === 0, 'other columns are as found');
+  await zone.locator('button.add').click();
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), climate_zone', 'as numeric it is added as it is');
+  await page.click('#undo-button');
+  // An identifier the user calls a category can be added.
+  await afterInspect(() => columnRow('site_code').locator('select').selectOption('coded_category'));
+  await columnRow('site_code').locator('.by-you').waitFor({ timeout: 10000 });
+  assert.equal(await columnRow('site_code').locator('button.add').getAttribute('data-term'), 'cat(site_code)');
+  await shot('18-columns-kinds-set');
+  // Back to what was found: no longer marked.
+  await afterInspect(() => zone.locator('select').selectOption('coded_category'));
+  await page.waitForFunction(() => !document.querySelector('#columns-table tr[data-column="climate_zone"] .by-you'));
+  assert.match(await zone.locator('td.reason').textContent(), /twice/);
+  assert.equal(await columnRow('site_code').locator('.by-you').count(), 1, 'the other kind set stays');
+  // The data and the fit are untouched by kinds.
+  assert.match(await page.textContent('#data-facts'), /240 rows of data/);
+  await page.click('#suggested-button');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS.replace('cat(climate_zone)', 'cat(site_code), cat(climate_zone)'));
+  await page.click('#undo-button');
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2)');
 });
 
 test('a bad term shows the plain message and the table stays loaded', { timeout: 60000 }, async () => {

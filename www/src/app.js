@@ -1,25 +1,36 @@
-// UI wiring: loading a table, choosing a model, showing the result.
-// No statistics here: every number shown comes from the wasm `fit_csv`.
+// UI wiring: loading a table, looking at its columns, choosing a model,
+// showing the result. No statistics here: the table, its column profile and
+// every number shown come from the wasm (`inspect` and `fit_bytes`).
 // Text from the file or the result goes into the page with textContent only.
 import { Engine, EngineError, base64ToBytes } from './engine.js';
 
 const PREVIEW_ROWS = 10;
-const DEMO = {
-  response: 'energy_mwh',
-  transform: 'log',
-  terms: 'log(floor_area_m2), cat(climate_zone), mean_outdoor_temp_c, mean_outdoor_temp_c^2, cat(hvac_type), retrofit, building_age',
-};
+const UNDO_DEPTH = 30;
+const DEMO = { response: 'energy_mwh', transform: 'log' };
 
 const $ = (id) => document.getElementById(id);
 const el = {
   fileInput: $('file-input'),
   demoButton: $('demo-button'),
+  pasteText: $('paste-text'),
+  pasteButton: $('paste-button'),
   dataMessage: $('data-message'),
   dataSummary: $('data-summary'),
   dataFacts: $('data-facts'),
-  previewDoubt: $('preview-doubt'),
+  readLine: $('read-line'),
+  sheetField: $('sheet-field'),
+  sheetSelect: $('sheet-select'),
+  headerRow: $('header-row'),
+  readWarningsBlock: $('read-warnings-block'),
+  readWarnings: $('read-warnings'),
   preview: $('preview'),
   previewCaption: $('preview-caption'),
+  columnsEmpty: $('columns-empty'),
+  columnsBody: $('columns-body'),
+  columnsTable: $('columns-table'),
+  suggestedButton: $('suggested-button'),
+  undoButton: $('undo-button'),
+  columnsStatus: $('columns-status'),
   form: $('model-form'),
   responseColumn: $('response-column'),
   responseTransform: $('response-transform'),
@@ -51,10 +62,15 @@ const el = {
 
 /** What is loaded: kept on the main thread, whatever happens to the worker. */
 const state = {
-  data: null, // {name, bytes, columns, rowCount, preview}
+  // {name, bytes, read: {paste?, sheet?, header_row?}, kinds: {column: kind},
+  //  detected: {column: kind}, inspection: {load, columns, preview}}
+  data: null,
   report: null,
   fitSeq: 0,
   fitsDone: 0, // fits answered, good or bad (for the tests)
+  inspectSeq: 0,
+  inspectsDone: 0, // inspections answered, good or bad (for the tests)
+  undo: [], // earlier texts of the terms, the last on top
 };
 
 // ---------------------------------------------------------------- messages
@@ -81,129 +97,130 @@ const engine = new Engine({
   },
 });
 
-// ------------------------------------------------- reading a table (preview)
-
-// The wasm reader decides whether a file is a table and fits from it. This
-// small reader only lists the column names and the first rows for the
-// preview, following the same rules (RFC 4180 quotes, CR/LF, blank lines
-// skipped, blank header names and repeated names renamed as the wasm does).
-function splitRecords(text) {
-  const records = [];
-  let i = 0;
-  let line = 1;
-  const n = text.length;
-  while (i < n) {
-    const startLine = line;
-    const cells = [];
-    let cell = '';
-    for (;;) {
-      if (text[i] === '"' && cell.trim() === '') {
-        cell = '';
-        i++;
-        for (;;) {
-          if (i >= n) return records; // unclosed; the wasm reader has said so already
-          if (text[i] === '"' && text[i + 1] === '"') { cell += '"'; i += 2; }
-          else if (text[i] === '"') { i++; break; }
-          else {
-            if (text[i] === '\n') line++;
-            cell += text[i];
-            i++;
-          }
-        }
-        while (i < n && text[i] !== ',' && text[i] !== '\n' && text[i] !== '\r') { cell += text[i]; i++; }
-      }
-      if (i >= n) { cells.push(cell); break; }
-      const c = text[i];
-      if (c === ',') { cells.push(cell); cell = ''; i++; }
-      else if (c === '\r' || c === '\n') {
-        cells.push(cell);
-        if (c === '\r' && text[i + 1] === '\n') i++;
-        i++;
-        line++;
-        break;
-      } else { cell += c; i++; }
-    }
-    if (!cells.every((s) => s.trim() === '')) records.push({ line: startLine, cells });
-  }
-  return records;
-}
-
-function nameColumns(header) {
-  const names = header.map((s, j) => (s.trim() === '' ? `column_${j + 1}` : s.trim()));
-  for (let j = 0; j < names.length; j++) {
-    if (names.slice(0, j).includes(names[j])) {
-      const base = names[j];
-      let k = 2;
-      while (names.includes(`${base}_${k}`)) k++;
-      names[j] = `${base}_${k}`;
-    }
-  }
-  return names;
-}
-
-function readPreview(bytes) {
-  let text = new TextDecoder('utf-8').decode(bytes);
-  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
-  const records = splitRecords(text);
-  const columns = nameColumns(records.length ? records[0].cells : []);
-  return { columns, rowCount: Math.max(0, records.length - 1), preview: records.slice(1, 1 + PREVIEW_ROWS) };
-}
-
 /** Writes a column name as the term syntax needs it (quoted unless bare). */
 function quoteName(name) {
-  const bare = /^[\p{Alphabetic}_][\p{Alphabetic}\p{N}_.]*$/u.test(name) && !['log', 'sqrt', 'cat'].includes(name);
+  const bare = /^[\p{Alphabetic}_][\p{Alphabetic}\p{N}_.]*$/u.test(name)
+    && !['log', 'sqrt', 'cat', 'boxcox', 'yeojohnson'].includes(name);
   return bare ? name : `"${name.replace(/"/g, '""')}"`;
 }
 
-// ---------------------------------------------------------------- loading
+// ---------------------------------------------------------------- reading
 
-async function loadBytes(name, bytes) {
-  clearMessage(el.dataMessage);
-  let check;
+/** The reading options of the data, as inspect and fit requests take them. */
+function readRequest(d) {
+  const r = {};
+  if (d.read.paste) r.paste = true;
+  if (d.read.sheet !== undefined) r.sheet = d.read.sheet;
+  if (d.read.header_row !== undefined) r.header_row = d.read.header_row;
+  return r;
+}
+
+/** Asks the wasm to read and profile the bytes. Resolves with its answer or
+ *  rejects with an EngineError (which the engine has already reported). */
+async function inspectBytes(bytes, read, kinds) {
+  const request = { ...read, preview_rows: PREVIEW_ROWS };
+  if (kinds && Object.keys(kinds).length) request.kinds = kinds;
   try {
-    check = await engine.checkFile(bytes);
-  } catch (e) {
-    showMessage(el.dataMessage, `Could not check "${name}": ${e.message}`);
-    return false;
+    return await engine.inspect(bytes, request);
+  } finally {
+    state.inspectsDone += 1;
   }
-  if (check.error) {
-    const kept = state.data ? ` The data already open ("${state.data.name}") are still loaded.` : '';
-    const why = check.error.replace(/^Could not read the file:\s*/, '');
-    showMessage(el.dataMessage, `"${name}" could not be opened: ${why}${kept}`);
-    return false;
-  }
-  const p = readPreview(bytes);
-  // The preview reads plain comma-separated text; the wasm reader also
-  // finds other delimiters and title rows. Ask it whether the first and last
-  // names are its own, and say so when they are not.
-  let doubt = false;
-  try {
-    const probe = [...new Set([p.columns[0], p.columns[p.columns.length - 1]])].filter(Boolean);
-    for (const c of probe) if (!(await engine.hasColumn(bytes, quoteName(c)))) doubt = true;
-  } catch (_) {
-    doubt = false; // the engine has said what went wrong
-  }
-  state.data = { name, bytes, ...p, doubt };
-  // A fit still running was for the data before; its answer is dropped.
+}
+
+function keptNote() {
+  return state.data ? ` The data already open ("${state.data.name}") are still loaded.` : '';
+}
+
+function readError(text) {
+  return text.replace(/^Could not read the file:\s*/, '');
+}
+
+/** Stops waiting for a fit of the data before (its answer is dropped). */
+function dropRunningFit() {
   if (el.fitButton.disabled) {
     state.fitSeq += 1;
     finishBusy('');
   }
+}
+
+async function loadBytes(name, bytes, { paste = false } = {}) {
+  clearMessage(el.dataMessage);
+  const read = paste ? { paste: true } : {};
+  const seq = ++state.inspectSeq;
+  let answer;
+  try {
+    answer = await inspectBytes(bytes, read, null);
+  } catch (e) {
+    if (seq === state.inspectSeq) showMessage(el.dataMessage, `"${name}" could not be opened: ${e.message}${keptNote()}`);
+    return false;
+  }
+  if (seq !== state.inspectSeq) return false;
+  if (answer.error) {
+    showMessage(el.dataMessage, `"${name}" could not be opened: ${readError(answer.error)}${keptNote()}`);
+    return false;
+  }
+  const inspection = answer.ok;
+  state.data = { name, bytes, read, kinds: {}, detected: detectedKinds(inspection), inspection };
+  state.undo = [];
+  dropRunningFit();
   renderData();
+  renderColumns();
+  setColumnsStatus('');
   clearResult();
   clearMessage(el.modelMessage);
   return true;
 }
 
-const WORKBOOK = /\.(xlsx|xlsm|xlsb|xls|ods)$/i;
+function detectedKinds(inspection) {
+  return Object.fromEntries(inspection.columns.map((c) => [c.name, c.kind]));
+}
+
+/**
+ * Reads the data again with other reading options or kinds. On an error the
+ * data stay as they were and the wasm's words are shown.
+ * @param {object} change  {read?: the new reading options, kinds?: the new kinds}
+ */
+async function reinspect(change, focusAfter) {
+  const d = state.data;
+  if (!d) return false;
+  const read = change.read || d.read;
+  const kinds = change.kinds || (change.read ? {} : d.kinds);
+  const seq = ++state.inspectSeq;
+  clearMessage(el.dataMessage);
+  let answer;
+  try {
+    answer = await inspectBytes(d.bytes, readRequest({ read }), kinds);
+  } catch (e) {
+    if (seq === state.inspectSeq) {
+      showMessage(el.dataMessage, `"${d.name}" could not be read again: ${e.message} The data stay as they were read before.`);
+      renderReadControls();
+    }
+    return false;
+  }
+  if (seq !== state.inspectSeq || state.data !== d) return false;
+  if (answer.error) {
+    showMessage(el.dataMessage, `${readError(answer.error)} The data stay as they were read before.`);
+    renderReadControls();
+    renderColumns();
+    return false;
+  }
+  d.read = read;
+  d.kinds = kinds;
+  d.inspection = answer.ok;
+  if (change.read) {
+    // Another sheet or header row: other columns, so the kinds found are new.
+    d.detected = detectedKinds(answer.ok);
+    dropRunningFit();
+    clearResult();
+    renderData();
+  }
+  renderColumns();
+  if (focusAfter) focusAfter();
+  return true;
+}
 
 async function loadFile(file) {
   if (!file) return;
-  if (WORKBOOK.test(file.name)) {
-    const kept = state.data ? ` The data already open ("${state.data.name}") are still loaded.` : '';
-    showMessage(el.dataMessage, `"${file.name}" is a workbook; this version reads comma-separated text (CSV) only. Save the sheet as CSV and open that.${kept}`);
-    return;
-  }
   let buf;
   try {
     buf = await file.arrayBuffer();
@@ -214,6 +231,16 @@ async function loadFile(file) {
   await loadBytes(file.name, new Uint8Array(buf));
 }
 
+async function loadPaste() {
+  const text = el.pasteText.value;
+  if (text.trim() === '') {
+    showMessage(el.dataMessage, `There are no pasted cells to use: copy a block of cells in a spreadsheet, header row included, and paste it into the box first.${keptNote()}`);
+    el.pasteText.focus();
+    return;
+  }
+  await loadBytes('Pasted cells', new TextEncoder().encode(text), { paste: true });
+}
+
 async function openDemo() {
   const node = $('plumbline-demo');
   const bytes = new TextEncoder().encode(node.textContent.replace(/^\n/, ''));
@@ -221,52 +248,115 @@ async function openDemo() {
   if (!ok) return;
   el.responseColumn.value = DEMO.response;
   el.responseTransform.value = DEMO.transform;
-  el.terms.value = DEMO.terms;
+  el.terms.value = suggestedTerms(state.data.inspection.columns, DEMO.response).join(', ');
   el.intercept.checked = true;
   el.hc3.checked = false;
   el.level.value = '95';
   updateResponsePreview();
+  renderColumns();
   await runFit();
+}
+
+// ------------------------------------------------------ what the data are
+
+const DELIMITER_WORDS = { ',': 'comma', ';': 'semicolon', tab: 'tab', '|': 'bar', ' ': 'space', ':': 'colon' };
+
+/** How the data were read, in one short line, from the load summary. */
+function readSummary(load) {
+  const rowWord = load.format === 'workbook' ? 'row' : 'line';
+  let skipped = '';
+  const others = [];
+  for (const note of load.notes) {
+    // The readers' note on title rows: "...; 2 rows above it (a title or notes) were skipped."
+    const m = /;\s*(\d+)\s+(rows?|lines?)\s+above it\b/.exec(note);
+    if (m) skipped = `${m[1]} ${m[2]} above it skipped`;
+    else others.push(note);
+  }
+  const parts = [];
+  if (load.format === 'workbook') {
+    parts.push(load.sheet !== null ? `Sheet ${load.sheet}` : 'Workbook');
+  } else {
+    parts.push(load.format === 'paste' ? 'Pasted cells' : 'Text');
+    if (load.delimiter) {
+      const w = DELIMITER_WORDS[load.delimiter];
+      parts.push(w ? `${w}-separated` : `separated by "${load.delimiter}"`);
+    }
+    parts.push(`decimal ${load.decimal}`);
+    if (load.encoding && load.format !== 'paste') parts.push(load.encoding);
+  }
+  let line = parts.join(', ');
+  if (load.format === 'workbook' || load.header_row !== 1 || skipped) {
+    line += `${load.format === 'workbook' ? ',' : ';'} header on ${rowWord} ${load.header_row}`;
+    if (skipped) line += `; ${skipped}`;
+  }
+  return { line: `${line}.`, others };
+}
+
+function renderReadControls() {
+  const load = state.data.inspection.load;
+  const many = load.sheets.length > 1;
+  el.sheetField.hidden = !many;
+  el.sheetSelect.textContent = '';
+  if (many) {
+    for (const s of load.sheets) el.sheetSelect.add(new Option(s, s));
+    el.sheetSelect.value = load.sheet;
+  }
+  el.headerRow.value = String(load.header_row);
 }
 
 function renderData() {
   const d = state.data;
+  const { load, preview } = d.inspection;
   el.dataSummary.hidden = false;
   el.dataFacts.textContent = '';
   const strong = document.createElement('strong');
   strong.textContent = d.name;
-  el.dataFacts.append(strong, `: ${plural(d.rowCount, 'row')} of data, ${plural(d.columns.length, 'column')}.`);
+  el.dataFacts.append(strong, `: ${plural(load.rows, 'row')} of data, ${plural(load.columns, 'column')}.`);
 
-  el.previewDoubt.hidden = !d.doubt;
+  const { line, others } = readSummary(load);
+  el.readLine.textContent = '';
+  const label = document.createElement('span');
+  label.className = 'read-label';
+  label.textContent = 'Read as:';
+  el.readLine.append(label, ` ${[line, ...others].join(' ')}`);
+  renderReadControls();
 
-  const shown = d.preview.length;
-  el.previewCaption.textContent = shown < d.rowCount ? `The first ${shown} of ${d.rowCount} rows` : `All ${d.rowCount} rows`;
+  el.readWarnings.textContent = '';
+  for (const w of load.warnings) addItem(el.readWarnings, w);
+  el.readWarningsBlock.hidden = load.warnings.length === 0;
+
+  const shown = preview.rows.length;
+  el.previewCaption.textContent = shown < load.rows ? `The first ${shown} of ${load.rows} rows` : `All ${load.rows} rows`;
   const thead = el.preview.tHead;
   const tbody = el.preview.tBodies[0];
   thead.textContent = '';
   tbody.textContent = '';
   const hr = thead.insertRow();
-  addCell(hr, 'th', 'File row', { scope: 'col', className: 'rownum', title: 'The row of the file, counting the header as row 1, as messages and results count them' });
-  for (const c of d.columns) addCell(hr, 'th', c, { scope: 'col' });
-  d.preview.forEach(({ line, cells }) => {
+  const where = {
+    workbook: ['Sheet row', 'The row of the sheet, as messages and results count them'],
+    paste: ['Pasted row', 'The line of the pasted cells, counting the header as 1, as messages and results count them'],
+  }[load.format] || ['File row', 'The line of the file where the row starts, as messages and results count them'];
+  addCell(hr, 'th', where[0], { scope: 'col', className: 'rownum', title: where[1] });
+  for (const c of preview.header) addCell(hr, 'th', c, { scope: 'col', title: c });
+  preview.rows.forEach((cells, i) => {
     const tr = tbody.insertRow();
-    addCell(tr, 'th', String(line), { scope: 'row', className: 'rownum' });
+    addCell(tr, 'th', String(preview.source_rows[i]), { scope: 'row', className: 'rownum' });
     for (const c of cells) {
-      const td = addCell(tr, 'td', c);
-      if (c.trim() === '') { td.className = 'blank'; td.title = 'empty cell'; }
+      const td = addCell(tr, 'td', c === null ? '' : c);
+      if (c === null || c.trim() === '') { td.className = 'blank'; td.title = 'empty cell'; }
     }
   });
 
   // The response choices: keep the one chosen if the new table has it.
+  const names = preview.header;
   const previous = el.responseColumn.value;
   el.responseColumn.textContent = '';
-  const none = new Option('Choose a column', '');
-  el.responseColumn.add(none);
-  for (const c of d.columns) el.responseColumn.add(new Option(c, c));
-  el.responseColumn.value = d.columns.includes(previous) ? previous : '';
+  el.responseColumn.add(new Option('Choose a column', ''));
+  for (const c of names) el.responseColumn.add(new Option(c, c));
+  el.responseColumn.value = names.includes(previous) ? previous : '';
 
   el.columnButtons.textContent = '';
-  for (const c of d.columns) {
+  for (const c of names) {
     const b = document.createElement('button');
     b.type = 'button';
     b.className = 'chip';
@@ -275,9 +365,206 @@ function renderData() {
     b.addEventListener('click', () => insertTerm(quoteName(c)));
     el.columnButtons.append(b);
   }
-  el.columnsInsert.hidden = d.columns.length === 0;
+  el.columnsInsert.hidden = names.length === 0;
   updateResponsePreview();
 }
+
+// ------------------------------------------------------------ the columns
+
+const KIND_WORDS = {
+  numeric: 'numeric',
+  coded_category: 'coded category',
+  text_category: 'text category',
+  binary: 'binary',
+  identifier: 'identifier',
+  date: 'date',
+  constant: 'constant',
+  empty: 'empty',
+};
+const KIND_CHOICES = ['numeric', 'coded_category', 'text_category', 'binary', 'identifier'];
+const LEFT_OUT = {
+  identifier: 'left out: labels rows',
+  constant: 'left out: the same in every row',
+  empty: 'left out: no values',
+  date: 'left out: a date',
+};
+
+/** A column holds text when the wasm gave it no numeric summary. */
+function holdsText(col) {
+  return col.summary.mean === null || col.summary.mean === undefined;
+}
+
+/** The term the profile suggests for a column, or null when it suggests leaving it out. */
+function suggestedTerm(col) {
+  if (!col.offer_as_predictor) return null;
+  const q = quoteName(col.name);
+  if (col.kind === 'coded_category' || col.kind === 'text_category') return `cat(${q})`;
+  if (col.kind === 'binary') return holdsText(col) ? `cat(${q})` : q;
+  if (col.kind === 'numeric' && col.suggested_transform) return col.suggested_transform.term;
+  return q;
+}
+
+/** The terms the profile suggests, leaving out the response column. */
+function suggestedTerms(columns, response) {
+  return columns.filter((c) => c.name !== response).map(suggestedTerm).filter((t) => t !== null);
+}
+
+/** The terms typed, split at the commas between them (not those in quotes or brackets). */
+function splitTerms(text) {
+  const out = [];
+  let depth = 0;
+  let quoted = false;
+  let cur = '';
+  for (const ch of text) {
+    if (ch === '"') quoted = !quoted;
+    else if (!quoted && ch === '(') depth++;
+    else if (!quoted && ch === ')') depth = Math.max(0, depth - 1);
+    if (ch === ',' && !quoted && depth === 0) {
+      out.push(cur.trim());
+      cur = '';
+    } else cur += ch;
+  }
+  out.push(cur.trim());
+  return out.filter((t) => t !== '');
+}
+
+function setColumnsStatus(text) {
+  el.columnsStatus.textContent = text;
+}
+
+/** Changes the terms from the Columns panel, keeping the text before for Undo. */
+function changeTerms(text, status) {
+  state.undo.push(el.terms.value);
+  if (state.undo.length > UNDO_DEPTH) state.undo.shift();
+  el.terms.value = text;
+  el.undoButton.disabled = false;
+  setColumnsStatus(status);
+  markStale();
+}
+
+function addTerm(term) {
+  const current = splitTerms(el.terms.value);
+  if (current.includes(term)) {
+    setColumnsStatus(`${term} is already in the terms.`);
+    return;
+  }
+  changeTerms([...current, term].join(', '), `Added ${term} to the terms.`);
+}
+
+function undoTerms() {
+  if (!state.undo.length) return;
+  el.terms.value = state.undo.pop();
+  el.undoButton.disabled = state.undo.length === 0;
+  setColumnsStatus(el.terms.value ? `Undone: the terms are back to ${el.terms.value}.` : 'Undone: the terms are empty again.');
+  markStale();
+}
+
+function useSuggested() {
+  if (!state.data) return;
+  const terms = suggestedTerms(state.data.inspection.columns, el.responseColumn.value);
+  const text = terms.join(', ');
+  if (text === el.terms.value) {
+    setColumnsStatus('The terms are already the suggested ones.');
+    return;
+  }
+  changeTerms(text, terms.length ? `The terms are now the suggested ones: ${text}.` : 'No column is suggested as a term, so the terms are now empty.');
+}
+
+function changeKind(name, kind) {
+  const d = state.data;
+  const kinds = { ...d.kinds };
+  if (d.detected[name] === kind) delete kinds[name];
+  else kinds[name] = kind;
+  setColumnsStatus('');
+  reinspect({ kinds }, () => {
+    const sel = [...el.columnsTable.querySelectorAll('select')].find((s) => s.dataset.column === name);
+    if (sel) sel.focus();
+  });
+}
+
+function actionButton(text, term, className) {
+  const b = document.createElement('button');
+  b.type = 'button';
+  b.className = className;
+  b.textContent = text;
+  b.dataset.term = term;
+  b.setAttribute('aria-label', text === 'Add' ? `Add ${term}` : `${text}: ${term}`);
+  b.title = `Add ${term} to the terms`;
+  b.addEventListener('click', () => addTerm(term));
+  return b;
+}
+
+function renderColumns() {
+  const d = state.data;
+  el.columnsEmpty.hidden = !!d;
+  el.columnsBody.hidden = !d;
+  el.undoButton.disabled = state.undo.length === 0;
+  const body = el.columnsTable.tBodies[0];
+  body.textContent = '';
+  if (!d) return;
+  for (const col of d.inspection.columns) {
+    const tr = body.insertRow();
+    tr.dataset.column = col.name;
+    const th = addCell(tr, 'th', col.name, { scope: 'row', className: 'col-name' });
+    if (col.examples.length) th.title = `Values: ${col.examples.join(', ')}${col.distinct > col.examples.length ? ', …' : ''}`;
+
+    const kindCell = tr.insertCell();
+    kindCell.className = 'kind';
+    const sel = document.createElement('select');
+    sel.dataset.column = col.name;
+    sel.setAttribute('aria-label', `Kind of ${col.name}`);
+    const choices = KIND_CHOICES.includes(col.kind) ? KIND_CHOICES : [col.kind, ...KIND_CHOICES];
+    for (const k of choices) sel.add(new Option(KIND_WORDS[k] || k, k));
+    sel.value = col.kind;
+    sel.addEventListener('change', () => changeKind(col.name, sel.value));
+    kindCell.append(sel);
+    if (col.kind_set_by_user) {
+      const mark = document.createElement('span');
+      mark.className = 'by-you';
+      mark.textContent = 'set by you';
+      kindCell.append(' ', mark);
+    }
+
+    // Both kinds of cell are read as missing and counted in `missing`.
+    const among = [];
+    if (col.errors) among.push(`${col.errors} ${col.errors === 1 ? 'spreadsheet error' : 'spreadsheet errors'}`);
+    if (col.invalid) among.push(`${col.invalid} not ${col.invalid === 1 ? 'a number' : 'numbers'}`);
+    const missing = addCell(tr, 'td', among.length ? `${col.missing} (${among.join(', ')})` : String(col.missing), { className: 'num' });
+    if (among.length) missing.title = `${plural(col.missing, 'cell')} read as missing, of them ${among.join(' and ')}`;
+    addCell(tr, 'td', String(col.distinct), { className: 'num' });
+    const sk = addCell(tr, 'td', col.skewness === null ? '' : shortNumber(col.skewness, 3), { className: 'num' });
+    if (col.skewness !== null) {
+      const se = col.summary.skewness_se;
+      sk.title = `skewness ${full(col.skewness)}${se !== null && se !== undefined ? ` ± ${full(se)}` : ''}${col.skew ? ` (${col.skew === 'none' ? 'roughly symmetric' : col.skew})` : ''}`;
+    }
+
+    const term = suggestedTerm(col);
+    const sugg = tr.insertCell();
+    sugg.className = 'suggest';
+    if (term !== null) {
+      const code = document.createElement('code');
+      code.textContent = term;
+      sugg.append(code);
+      const t = col.suggested_transform;
+      if (t && t.lambda_ci) sugg.title = `λ ${full(t.lambda)}, 95% interval ${full(t.lambda_ci[0])} to ${full(t.lambda_ci[1])}`;
+    }
+    addCell(tr, 'td', col.reason, { className: 'reason' });
+
+    const act = tr.insertCell();
+    act.className = 'actions';
+    if (term === null || col.name === el.responseColumn.value) {
+      const note = document.createElement('span');
+      note.className = 'left-out';
+      note.textContent = term === null ? LEFT_OUT[col.kind] || 'left out' : 'the response';
+      act.append(note);
+    } else {
+      act.append(actionButton('Add', term, 'add'));
+      if (col.kind === 'numeric' && col.suggested_transform) act.append(' ', actionButton('Add as is', quoteName(col.name), 'add-plain'));
+    }
+  }
+}
+
+// ------------------------------------------------------------ the model
 
 function insertTerm(text) {
   const current = el.terms.value.replace(/[\s,]+$/, '');
@@ -297,7 +584,6 @@ function updateResponsePreview() {
   const r = responseTerm();
   el.responsePreview.textContent = r ? `The model explains ${r}.` : '';
 }
-
 // ---------------------------------------------------------------- fitting
 
 function buildRequest() {
@@ -316,13 +602,14 @@ function buildRequest() {
       intercept: el.intercept.checked,
       level,
       hc3: el.hc3.checked,
+      ...readRequest(state.data),
     },
   };
 }
 
 async function runFit() {
   if (!state.data) {
-    showMessage(el.modelMessage, 'Open a CSV file or the demo data first.');
+    showMessage(el.modelMessage, 'Open a file, paste cells or open the demo data first.');
     return;
   }
   const { request, problem } = buildRequest();
@@ -474,9 +761,10 @@ function renderResult(r) {
   used.textContent = `${r.n} of ${r.n + r.n_dropped} rows used.`;
   el.rowsLine.append(used);
   if (r.n_dropped > 0) {
+    const rowsWord = { workbook: 'sheet', paste: 'pasted' }[state.data && state.data.inspection.load.format] || 'file';
     const parts = r.dropped.map((d) => {
       const more = d.count > d.first_rows.length ? ', …' : '';
-      const where = d.first_rows.length ? ` (file ${d.first_rows.length === 1 ? 'row' : 'rows'} ${d.first_rows.join(', ')}${more})` : '';
+      const where = d.first_rows.length ? ` (${rowsWord} ${d.first_rows.length === 1 ? 'row' : 'rows'} ${d.first_rows.join(', ')}${more})` : '';
       return `${plural(d.count, 'row')} with ${d.reason.replace(/^missing value in /, 'a missing value in ')}${where}`;
     });
     el.rowsLine.append(` Left out: ${parts.join('; ')}.`);
@@ -629,6 +917,28 @@ el.fileInput.addEventListener('change', () => {
   loadFile(f).finally(() => { el.fileInput.value = ''; });
 });
 el.demoButton.addEventListener('click', () => { openDemo(); });
+el.pasteButton.addEventListener('click', () => { loadPaste(); });
+el.sheetSelect.addEventListener('change', () => {
+  if (!state.data) return;
+  // Another sheet: its header row is found again.
+  reinspect({ read: { ...state.data.read, sheet: el.sheetSelect.value, header_row: undefined } });
+});
+el.headerRow.addEventListener('change', () => {
+  if (!state.data) return;
+  const text = el.headerRow.value.trim();
+  const n = Number(text);
+  if (!/^\d+$/.test(text) || n < 1) {
+    showMessage(el.dataMessage, `The header row must be a whole number, 1 or more, not "${el.headerRow.value}". The data stay as they were read before.`);
+    renderReadControls();
+    return;
+  }
+  if (n === state.data.inspection.load.header_row) return;
+  const read = { ...state.data.read, header_row: n };
+  if (state.data.inspection.load.sheet !== null && read.sheet === undefined) read.sheet = state.data.inspection.load.sheet;
+  reinspect({ read });
+});
+el.suggestedButton.addEventListener('click', useSuggested);
+el.undoButton.addEventListener('click', undoTerms);
 el.form.addEventListener('submit', (e) => {
   e.preventDefault();
   runFit();
@@ -643,6 +953,7 @@ el.terms.addEventListener('keydown', (e) => {
 for (const c of [el.responseColumn, el.responseTransform]) {
   c.addEventListener('change', () => { updateResponsePreview(); markStale(); });
 }
+el.responseColumn.addEventListener('change', () => { if (state.data) renderColumns(); });
 for (const c of [el.terms, el.intercept, el.level, el.hc3]) {
   c.addEventListener('input', markStale);
   c.addEventListener('change', markStale);
@@ -676,6 +987,11 @@ window.plumblineTest = {
   fit(csvText, request) {
     return engine.fit(new TextEncoder().encode(csvText), request);
   },
+  /** The wasm's inspect, for bytes or text (text is sent as UTF-8). */
+  inspect(bytesOrText, request = {}) {
+    const bytes = typeof bytesOrText === 'string' ? new TextEncoder().encode(bytesOrText) : bytesOrText;
+    return engine.inspect(bytes, request);
+  },
   /** As fit, for raw bytes (a file that is not text, say). */
   fitBytes(bytes, request) {
     return engine.fit(bytes, request);
@@ -690,6 +1006,10 @@ window.plumblineTest = {
   /** How many fits started from the page have been answered. */
   fitsDone() {
     return state.fitsDone;
+  },
+  /** How many inspections started from the page have been answered. */
+  inspectsDone() {
+    return state.inspectsDone;
   },
   copiedText() {
     return state.report ? tableAsText(state.report) : null;

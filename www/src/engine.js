@@ -1,6 +1,6 @@
 // The one module that talks to the worker. It starts the worker from its
-// data: URL, hands it the wasm bytes, sends fit requests and matches the
-// answers to them. When the worker dies or reports a panic, it rejects what
+// data: URL, hands it the wasm bytes, sends inspect and fit requests and
+// matches the answers to them. When the worker dies or reports a panic, it rejects what
 // was waiting, says so through `onTrouble`, and starts a fresh worker; the
 // data stay with the caller on the main thread.
 
@@ -148,10 +148,10 @@ export class Engine {
   }
 
   /**
-   * Fits a model. Resolves with the parsed `{ok: report}` or `{error}`
+   * Fits a model. Resolves with the parsed `{ok: report}` or `{error, kind}`
    * object from the wasm; rejects with an EngineError when the calculation
    * itself stopped.
-   * @param {Uint8Array} bytes  the CSV file's bytes (copied to the worker)
+   * @param {Uint8Array} bytes  the file's bytes (copied to the worker)
    * @param {object|string} request  the fit request, or its JSON text
    */
   fit(bytes, request) {
@@ -160,26 +160,15 @@ export class Engine {
   }
 
   /**
-   * Checks that the bytes read as a table, with the wasm reader. Resolves
-   * with `{ok: true}` or `{error}`.
+   * Reads the bytes as a table and profiles its columns. Resolves with the
+   * parsed `{ok: {load, columns, preview}}` or `{error, kind}` object from
+   * the wasm; rejects with an EngineError as `fit` does.
+   * @param {Uint8Array} bytes  the file's bytes (copied to the worker)
+   * @param {object|string} request  the inspect request, or its JSON text
    */
-  async checkFile(bytes) {
-    // The binding reads the file before it reads the response, so a request
-    // with an empty response fails on the file when the file is bad, and on
-    // the response otherwise.
-    const r = await this.fit(bytes, { response: '' });
-    if (r && typeof r.error === 'string' && r.error.startsWith('Could not read the file')) return { error: r.error };
-    return { ok: true };
-  }
-
-  /**
-   * Whether the wasm reader finds a column of this name (written as a term)
-   * in the bytes: an intercept-only fit of it fails with "There is no
-   * column called ..." only when it does not.
-   */
-  async hasColumn(bytes, termText) {
-    const r = await this.fit(bytes, { response: termText, terms: '', intercept: true });
-    return !(r && typeof r.error === 'string' && r.error.startsWith('There is no column called'));
+  inspect(bytes, request = {}) {
+    const text = typeof request === 'string' ? request : JSON.stringify(request);
+    return this.send({ type: 'inspect', bytes, request: text });
   }
 
   /** Test hook: the worker answers as if the wasm had panicked. */

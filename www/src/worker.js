@@ -1,13 +1,14 @@
-// The worker: loads the wasm and answers fit messages. It holds no
-// statistics; every number comes from the wasm `fit_csv`.
+// The worker: loads the wasm and answers inspect and fit messages. It holds
+// no statistics; every number comes from the wasm (`inspect`, `fit_bytes`).
 //
 // The build (www/tools/inline.mjs) puts the wasm-bindgen glue in front of
 // this file and removes the import line below, so that the whole worker is
 // one module that starts from a data: URL.
-import { initSync, fit_csv, last_panic } from './plumbline.js';
+import { initSync, fit_bytes, inspect, last_panic } from './plumbline.js';
 
 // Messages in:
 //   {type: 'init', wasm: Uint8Array}              -> {type: 'ready'} | {type: 'failed', message}
+//   {type: 'inspect', id, bytes: Uint8Array, request}
 //   {type: 'fit', id, bytes: Uint8Array, request}  -> {type: 'result', id, json}
 //                                                  | {type: 'panic', id, message}
 //   {type: 'die', id}  (test hook) throws outside any handler, so that the
@@ -38,6 +39,7 @@ self.onmessage = (event) => {
       }
       return;
     }
+    case 'inspect':
     case 'fit': {
       if (!ready) {
         self.postMessage({ type: 'panic', id: msg.id, message: 'The calculation part of the page was not ready.' });
@@ -45,7 +47,7 @@ self.onmessage = (event) => {
       }
       let json;
       try {
-        json = fit_csv(msg.bytes, msg.request);
+        json = msg.type === 'fit' ? fit_bytes(msg.bytes, msg.request) : inspect(msg.bytes, msg.request);
       } catch (e) {
         // A Rust panic aborts the wasm call; the hook kept its message.
         self.postMessage({ type: 'panic', id: msg.id, message: panicMessage(e) });
