@@ -205,3 +205,61 @@ pub fn fit_bytes(bytes: &[u8], request: &str) -> String {
 pub fn fit_csv(bytes: &[u8], request: &str) -> String {
     fit_bytes(bytes, request)
 }
+
+/// The checks of a model and the data of its figures.
+#[derive(Serialize)]
+struct Checked<'a> {
+    check: &'a crate::diagnostics::CheckReport,
+    figures: Vec<crate::plot::data::Figure>,
+}
+
+/// Fits a model and runs every check on it; `request` is as for
+/// [`fit_bytes`]. Returns `{ok: {check, figures}}`.
+#[wasm_bindgen]
+pub fn check_bytes(bytes: &[u8], request: &str) -> String {
+    let req: FitRequest = match serde_json::from_str(request) {
+        Ok(r) => r,
+        Err(e) => return error("request", &format!("The check request is not valid: {e}")),
+    };
+    let table = match req.read.load(bytes) {
+        Ok(l) => l.table,
+        Err(e) => return error("read", &format!("Could not read the file: {e}")),
+    };
+    let response = match parse_term(&req.response) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the response: {e}")),
+    };
+    let terms = match parse_terms(&req.terms) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the terms: {e}")),
+    };
+    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights };
+    let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
+    let fitted = match fit(&table, &spec, &options) {
+        Ok(f) => f,
+        Err(e) => return error("model", &e.to_string()),
+    };
+    let check = crate::diagnostics::check(&fitted, &spec, table.sheet.as_deref());
+    let figures = crate::plot::data::all_plots(&check, &fitted, &table);
+    ok(&Checked { check: &check, figures })
+}
+
+/// Draws a figure (the JSON of one element of `figures`) on the canvas
+/// with the given element id, on the page's main thread. Returns an empty
+/// string, or the problem in plain words.
+#[wasm_bindgen]
+pub fn draw_figure(canvas_id: &str, figure: &str) -> String {
+    let fig: crate::plot::data::Figure = match serde_json::from_str(figure) {
+        Ok(f) => f,
+        Err(e) => return format!("The figure is not valid: {e}"),
+    };
+    let Some(backend) = plotters_canvas::CanvasBackend::new(canvas_id) else {
+        return format!("There is no canvas called \"{canvas_id}\" on the page.");
+    };
+    use plotters::prelude::IntoDrawingArea;
+    let root = backend.into_drawing_area();
+    match crate::plot::draw::draw_figure(&root, &fig) {
+        Ok(()) => String::new(),
+        Err(e) => format!("The figure could not be drawn: {e}"),
+    }
+}

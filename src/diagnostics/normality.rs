@@ -10,8 +10,6 @@
 //!   kurtosis K (Jarque and Bera 1980, Economics Letters 6), χ² on 2 df.
 
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, Normal};
-use statrs::function::erf::erfc;
 
 /// A test statistic and its p-value.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
@@ -20,10 +18,6 @@ pub struct TestResult {
     pub statistic: f64,
     #[serde(serialize_with = "crate::schema::num")]
     pub p_value: f64,
-}
-
-fn std_normal() -> Normal {
-    Normal::new(0.0, 1.0).expect("unit normal")
 }
 
 /// c[0] + c[1]x + c[2]x² + ...
@@ -42,9 +36,8 @@ pub fn shapiro_wilk_coefficients(n: usize) -> Vec<f64> {
     const C2: [f64; 6] = [0.0, 0.042981, -0.293762, -1.752461, 5.682633, -3.582633];
     let an = n as f64;
     let an25 = an + 0.25;
-    let z = std_normal();
     // m[i] for i = 1..n/2 are the (negative) expected lower order statistics.
-    let m: Vec<f64> = (1..=nn2).map(|i| z.inverse_cdf((i as f64 - 0.375) / an25)).collect();
+    let m: Vec<f64> = (1..=nn2).map(|i| crate::special::normal_quantile((i as f64 - 0.375) / an25)).collect();
     let summ2 = 2.0 * m.iter().map(|v| v * v).sum::<f64>();
     let ssumm2 = summ2.sqrt();
     let rsn = 1.0 / an.sqrt();
@@ -135,12 +128,12 @@ fn shapiro_wilk_p(w: f64, w1: f64, n: usize) -> f64 {
         (poly(&C5, xx), poly(&C6, xx).exp())
     };
     // Upper tail of N(m, s).
-    0.5 * erfc((y - m) / s / std::f64::consts::SQRT_2)
+    0.5 * libm::erfc((y - m) / s / std::f64::consts::SQRT_2)
 }
 
 /// ln Φ(z), accurate in the lower tail.
 fn ln_phi(z: f64) -> f64 {
-    (0.5 * erfc(-z / std::f64::consts::SQRT_2)).ln()
+    (0.5 * libm::erfc(-z / std::f64::consts::SQRT_2)).ln()
 }
 
 /// Anderson–Darling test for normality with estimated mean and variance:

@@ -22,7 +22,6 @@ use crate::lstsq::{solve_lstsq, DdColumn, LstsqOptions};
 use crate::model::Fitted;
 use serde::Serialize;
 use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor};
-use statrs::function::erf::erfc;
 
 /// An F test.
 #[derive(Clone, Copy, Debug, Serialize)]
@@ -172,7 +171,7 @@ pub fn durbin_watson(f: &Fitted) -> Option<DurbinWatson> {
     let mean = p_tr / m;
     let var = 2.0 * (q_tr - p_tr * mean) / (m * (m + 2.0));
     let z = (d - mean) / var.sqrt();
-    let p = erfc(z.abs() / std::f64::consts::SQRT_2).min(1.0);
+    let p = libm::erfc(z.abs() / std::f64::consts::SQRT_2).min(1.0);
     Some(DurbinWatson {
         statistic: d,
         mean_under_independence: mean,

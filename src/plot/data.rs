@@ -5,11 +5,11 @@ use crate::diagnostics::lowess::lowess;
 use crate::diagnostics::CheckReport;
 use crate::model::Fitted;
 use crate::table::Table;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use statrs::distribution::{Beta, ContinuousCDF, Normal};
 
 /// A set of points, each tied to its row in the user's file.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Points {
     pub label: String,
     pub x: Vec<f64>,
@@ -19,7 +19,7 @@ pub struct Points {
 }
 
 /// What a line is for, which sets its look.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum LineRole {
     Smooth,
@@ -30,7 +30,7 @@ pub enum LineRole {
 }
 
 /// A polyline.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Line {
     pub label: String,
     pub role: LineRole,
@@ -39,21 +39,21 @@ pub struct Line {
 }
 
 /// A histogram: bin edges and counts.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Bars {
     pub edges: Vec<f64>,
     pub counts: Vec<usize>,
 }
 
 /// A labelled square matrix of values in [-1, 1].
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Heatmap {
     pub labels: Vec<String>,
     pub values: Vec<Vec<f64>>,
 }
 
 /// One figure.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Figure {
     /// A stable identifier, also the PNG file name.
     pub id: String,
@@ -78,6 +78,32 @@ impl Figure {
             bars: None,
             heatmap: None,
         }
+    }
+
+    /// Drops points and line vertices that are not finite numbers (JSON
+    /// cannot carry them, and they cannot be drawn).
+    fn finite(mut self) -> Figure {
+        for p in &mut self.points {
+            let keep: Vec<usize> = (0..p.x.len()).filter(|&i| p.x[i].is_finite() && p.y[i].is_finite()).collect();
+            p.x = keep.iter().map(|&i| p.x[i]).collect();
+            p.y = keep.iter().map(|&i| p.y[i]).collect();
+            p.rows = keep.iter().map(|&i| p.rows[i]).collect();
+        }
+        for l in &mut self.lines {
+            let keep: Vec<usize> = (0..l.x.len()).filter(|&i| l.x[i].is_finite() && l.y[i].is_finite()).collect();
+            l.x = keep.iter().map(|&i| l.x[i]).collect();
+            l.y = keep.iter().map(|&i| l.y[i]).collect();
+        }
+        if let Some(h) = &mut self.heatmap {
+            for row in &mut h.values {
+                for v in row.iter_mut() {
+                    if !v.is_finite() {
+                        *v = 0.0;
+                    }
+                }
+            }
+        }
+        self
     }
 
     /// A file name for the figure, without extension.
@@ -139,7 +165,7 @@ pub fn all_plots(c: &CheckReport, f: &Fitted, table: &Table) -> Vec<Figure> {
     out.extend(component_residual_figures(f, &resid, &rows));
     out.extend(response_figures(c, f, table, &rows));
     out.push(correlation_figure(f));
-    out
+    out.into_iter().map(Figure::finite).collect()
 }
 
 /// Normal Q–Q plot of the standardized residuals with Blom's plotting
