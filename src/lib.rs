@@ -34,6 +34,7 @@ pub mod plot;
 pub mod profile;
 pub mod read;
 pub mod schema;
+pub mod select;
 pub mod special;
 pub mod table;
 pub mod terms;

@@ -15,6 +15,8 @@ plumbline: linear models from a spreadsheet, computed on this machine
 Usage:
   plumbline fit FILE --response R [--terms \"T1, T2, ...\"] [options]
   plumbline check FILE --response R [--terms \"...\"] [fit options] [--plots DIR]
+  plumbline select FILE --response R [--candidates \"...\"] [--force \"...\"]
+                 [--by adj-r2|aic|bic|cp|cv|p-value] [select options]
   plumbline profile FILE [--kind COLUMN=KIND ...] [--json]
   plumbline sheets FILE
 
@@ -39,6 +41,16 @@ Options of fit:
 check fits the model as fit does, then reports per-row influence,
 collinearity, tests of the assumptions and findings in plain words;
 --plots DIR also writes every diagnostic plot there as PNG.
+
+Options of select (candidates default to the profile's suggestions):
+  --by C            what picks the winner (default bic)
+  --search S        exhaustive (default), forward, backward or both (stepwise)
+  --alpha A         level of the p-value route (default 0.05)
+  --folds K         folds of the cross-validation (default 5)
+  --repeats R       repeat the cross-validation with R fold draws (default 1)
+  --seed S          seed of the folds and resamples (default 1)
+  --stability B     refit the selection on B bootstrap resamples
+  --no-intercept, --weights C, --json as for fit
 
 Options of profile:
   --kind C=K        set the kind of column C, overriding what was found; K is
@@ -127,6 +139,7 @@ fn run(args: &[String]) -> Result<String, Failure> {
         None | Some("--help") | Some("-h") | Some("help") => Ok(USAGE.to_string()),
         Some("fit") => run_fit(&args[1..]),
         Some("check") => run_check(&args[1..]),
+        Some("select") => run_select(&args[1..]),
         Some("profile") => run_profile(&args[1..]),
         Some("sheets") => run_sheets(&args[1..]),
         Some(other) => Err(Failure::usage(format!("There is no command \"{other}\".\n\n{USAGE}"))),
@@ -333,4 +346,86 @@ fn run_sheets(args: &[String]) -> Result<String, Failure> {
         return Ok(format!("\"{file}\" is text, with one table and no sheets.\n"));
     }
     Ok(sheets.iter().map(|s| format!("{s}\n")).collect())
+}
+
+fn run_select(args: &[String]) -> Result<String, Failure> {
+    use plumbline::select::{select, Criterion, Search, SelectOptions};
+    use plumbline::select::stepwise::Direction;
+    let mut read = RawReadArgs::default();
+    let (mut file, mut response, mut candidates, mut force) = (None, None, None, None);
+    let mut o = SelectOptions::default();
+    let (mut json, mut intercept, mut weights) = (false, true, None);
+    let number = |flag: &str, v: &str| -> Result<f64, Failure> {
+        v.trim().parse::<f64>().ok().filter(|x| x.is_finite()).ok_or_else(|| Failure::usage(format!("{flag} takes a number, not \"{v}\".")))
+    };
+    let mut it = args.iter();
+    while let Some(a) = it.next() {
+        let mut value = |flag: &str| it.next().cloned().ok_or_else(|| Failure::usage(format!("{flag} needs a value after it.")));
+        if read.take(a, &mut value)? {
+            continue;
+        }
+        match a.as_str() {
+            "--response" => response = Some(value(a)?),
+            "--candidates" => candidates = Some(value(a)?),
+            "--force" => force = Some(value(a)?),
+            "--by" => {
+                let v = value(a)?;
+                o.by = Criterion::parse(&v).ok_or_else(|| Failure::usage(format!("--by takes adj-r2, aic, bic, cp, cv or p-value, not \"{v}\".")))?;
+            }
+            "--search" => {
+                let v = value(a)?;
+                o.search = match v.as_str() {
+                    "exhaustive" => Search::Exhaustive,
+                    "forward" => Search::Stepwise(Direction::Forward),
+                    "backward" => Search::Stepwise(Direction::Backward),
+                    "both" => Search::Stepwise(Direction::Both),
+                    _ => return Err(Failure::usage(format!("--search takes exhaustive, forward, backward or both, not \"{v}\"."))),
+                };
+            }
+            "--alpha" => {
+                let v = number(a, &value(a)?)?;
+                if !(v > 0.0 && v < 1.0) {
+                    return Err(Failure::usage("--alpha must be between 0 and 1, such as 0.05."));
+                }
+                o.alpha = v;
+            }
+            "--folds" => o.folds = (number(a, &value(a)?)? as usize).max(2),
+            "--repeats" => o.cv_repeats = (number(a, &value(a)?)? as usize).max(1),
+            "--seed" => o.seed = number(a, &value(a)?)? as u64,
+            "--stability" => o.stability = Some((number(a, &value(a)?)? as usize).max(1)),
+            "--no-intercept" => intercept = false,
+            "--weights" => weights = Some(value(a)?),
+            "--json" => json = true,
+            s if s.starts_with("--") => return Err(Failure::usage(format!("There is no option \"{s}\" for select.\n\n{USAGE}"))),
+            s => {
+                if file.replace(s.to_string()).is_some() {
+                    return Err(Failure::usage("select takes one file."));
+                }
+            }
+        }
+    }
+    let file = file.ok_or_else(|| Failure::usage(format!("select needs a data file.\n\n{USAGE}")))?;
+    let response = response.ok_or_else(|| Failure::usage("select needs --response, the column to explain."))?;
+    let response = parse_term(&response).map_err(|e| Failure::usage(format!("In --response: {e}")))?;
+    let forced = parse_terms(force.as_deref().unwrap_or("")).map_err(|e| Failure::usage(format!("In --force: {e}")))?;
+    let loaded = load_table(&file, &read)?;
+    let candidate_terms = match candidates {
+        Some(c) => parse_terms(&c).map_err(|e| Failure::usage(format!("In --candidates: {e}")))?,
+        None => {
+            let profile = plumbline::profile::profile_table(&loaded.table, &Default::default());
+            let exclude: Vec<&str> = response.columns();
+            let texts = plumbline::profile::default_terms(&profile, &exclude);
+            parse_terms(&texts.join(", ")).map_err(|e| Failure::data(format!("The suggested candidates could not be read: {e}")))?
+        }
+    };
+    if candidate_terms.is_empty() && forced.is_empty() {
+        return Err(Failure::data("There are no candidate terms to choose from; give --candidates."));
+    }
+    let req = plumbline::select::SelectRequest { response, candidates: candidate_terms, forced, intercept, weights };
+    let report = select(&loaded.table, &req, &o, None).map_err(|e| Failure::data(e.to_string()))?;
+    if json {
+        to_json(&report)
+    } else {
+        Ok(plumbline::text::render_select(&report))
+    }
 }

@@ -288,6 +288,83 @@ pub fn render_check(c: &CheckReport, sheet: Option<&str>) -> String {
     s
 }
 
+/// Renders a selection as text.
+pub fn render_select(r: &crate::select::SelectReport) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "Choosing the terms of a model of {}", r.response);
+    let _ = writeln!(s, "  candidates: {}", if r.candidates.is_empty() { "none".into() } else { r.candidates.join(", ") });
+    if !r.forced.is_empty() {
+        let _ = writeln!(s, "  always in: {}", r.forced.join(", "));
+    }
+    let _ = writeln!(s, "  rows: {}; search: {}; models examined: {}", r.n, r.search, r.models_examined);
+    for n in &r.notes {
+        let _ = writeln!(s, "  - {n}");
+    }
+    let _ = writeln!(s, "\nRecommended");
+    let _ = writeln!(s, "  {}", r.recommended.reason);
+
+    let _ = writeln!(s, "\nCandidates side by side");
+    let mut rows: Vec<Vec<String>> = vec![["terms", "k", "RSS", "R²", "adj. R²", "AIC", "BIC", "Cp", "CV RMSE", "stability", "best by"].iter().map(|x| x.to_string()).collect()];
+    for c in &r.comparison {
+        let terms = if c.terms.is_empty() { "(intercept only)".to_string() } else { c.terms.join(", ") };
+        let wins: Vec<&str> = c.wins.iter().map(|w| match w {
+            crate::select::Criterion::AdjR2 => "adj. R²",
+            crate::select::Criterion::Aic => "AIC",
+            crate::select::Criterion::Bic => "BIC",
+            crate::select::Criterion::Cp => "Cp",
+            crate::select::Criterion::Cv => "CV",
+            crate::select::Criterion::PValue => "p-value route",
+        }).collect();
+        rows.push(vec![
+            terms,
+            c.criteria.k.to_string(),
+            short(c.criteria.rss, 5),
+            short(c.criteria.r_squared, 4),
+            short(c.criteria.adj_r_squared, 4),
+            short(c.criteria.aic, 6),
+            short(c.criteria.bic, 6),
+            short(c.criteria.cp, 4),
+            short(c.cv_rmse, 4),
+            c.stability.map_or(String::new(), |v| format!("{}%", (v * 100.0).round())),
+            wins.join(", "),
+        ]);
+    }
+    s.push_str(&table_lines(&rows, "  "));
+
+    if !r.by_size.is_empty() {
+        let _ = writeln!(s, "\nBest of each size (lowest RSS)");
+        for b in &r.by_size {
+            let _ = writeln!(s, "  {} terms: {} (RSS {})", b.size, if b.terms.is_empty() { "none".into() } else { b.terms.join(", ") }, short(b.rss, 6));
+        }
+    }
+    if !r.path.is_empty() {
+        let _ = writeln!(s, "\nStepwise route");
+        for st in &r.path {
+            let _ = writeln!(s, "  {} {}: criterion {}", st.action, st.term, short(st.value, 6));
+        }
+    }
+    let _ = writeln!(s, "\nThe p-value route (drop the weakest term while its p-value is above {})", r.p_value_route.alpha);
+    if r.p_value_route.path.is_empty() {
+        let _ = writeln!(s, "  nothing dropped");
+    }
+    for st in &r.p_value_route.path {
+        let _ = writeln!(s, "  drop {} (p-value {})", st.term, short(st.value, 3));
+    }
+    let _ = writeln!(s, "  keeps: {}", if r.p_value_route.terms.is_empty() { "none".into() } else { r.p_value_route.terms.join(", ") });
+    if let Some(st) = &r.stability {
+        let _ = writeln!(s, "\nHow often each term is chosen ({} bootstrap resamples, seed {})", st.resamples, st.seed);
+        for t in &st.terms {
+            let _ = writeln!(s, "  {:>4}%  {}", (t.share * 100.0).round(), t.term);
+        }
+        let _ = writeln!(s, "  the recommended set itself: {}%", (st.winner_share * 100.0).round());
+    }
+    let _ = writeln!(s, "\nBefore you rely on this");
+    for c in &r.cautions {
+        let _ = writeln!(s, "  - {c}");
+    }
+    s
+}
+
 /// Renders a column profile as text.
 pub fn render_profile(r: &ProfileReport) -> String {
     let mut s = String::new();

@@ -150,6 +150,30 @@ fn fmt(v: f64) -> String {
     crate::text::short(v, 3)
 }
 
+/// The terms the profile suggests as candidates: categories as `cat()`,
+/// skewed columns with their suggested transform, other numeric columns as
+/// they are; identifiers, constants, empty and date columns are left out,
+/// and so are the columns named in `exclude` (the response).
+pub fn default_terms(profile: &TableProfile, exclude: &[&str]) -> Vec<String> {
+    let mut out = Vec::new();
+    for c in &profile.columns {
+        if exclude.contains(&c.name.as_str()) || !c.offer_as_predictor {
+            continue;
+        }
+        let q = crate::terms::parse::quote_name(&c.name);
+        let is_text = c.summary.mean.is_none();
+        let term = match c.kind {
+            Kind::CodedCategory | Kind::TextCategory => format!("cat({q})"),
+            Kind::Binary if is_text => format!("cat({q})"),
+            Kind::Numeric => c.suggested_transform.as_ref().map_or(q.clone(), |t| t.term.clone()),
+            Kind::Binary => q,
+            _ => continue,
+        };
+        out.push(term);
+    }
+    out
+}
+
 /// Profiles every column.
 pub fn profile_table(table: &Table, options: &ProfileOptions) -> TableProfile {
     TableProfile {
