@@ -119,7 +119,9 @@ impl Failure {
 
 fn main() -> ExitCode {
     std::panic::set_hook(Box::new(|info| {
-        eprintln!("plumbline stopped on an internal error, which is a bug: {info}");
+        if !plumbline::read::workbook::panics_are_caught() {
+            eprintln!("plumbline stopped on an internal error, which is a bug: {info}");
+        }
     }));
     let args: Vec<String> = std::env::args().skip(1).collect();
     match run(&args) {

@@ -7,6 +7,7 @@
 //! below any title rows.
 
 pub mod cells;
+mod cfb_guard;
 pub mod columns;
 pub mod csv;
 pub mod text;

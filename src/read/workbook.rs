@@ -10,12 +10,34 @@ use std::io::Cursor;
 
 /// The sheets of a workbook, in order.
 pub fn list_sheets(bytes: &[u8]) -> Result<Vec<String>, ReadError> {
-    let wb = open(bytes)?;
-    Ok(wb.sheet_names())
+    guarded(|| Ok(open(bytes)?.sheet_names()))
 }
 
 fn open(bytes: &[u8]) -> Result<calamine::Sheets<Cursor<&[u8]>>, ReadError> {
+    if bytes.starts_with(&[0xD0, 0xCF, 0x11, 0xE0]) {
+        super::cfb_guard::check(bytes).map_err(|detail| ReadError::Workbook { detail })?;
+    }
     open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| ReadError::Workbook { detail: e.to_string() })
+}
+
+thread_local! {
+    static GUARDED: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
+/// True while the workbook reader runs under its panic guard, so that a
+/// program's panic hook can stay quiet about a panic that will be caught.
+pub fn panics_are_caught() -> bool {
+    GUARDED.with(|g| g.get())
+}
+
+/// Runs `f` (which calls the workbook library) and turns a panic inside
+/// it into a refusal. Native builds only catch it; in wasm a panic aborts,
+/// which is why the container is checked before the library runs.
+fn guarded<T>(f: impl FnOnce() -> Result<T, ReadError>) -> Result<T, ReadError> {
+    GUARDED.with(|g| g.set(true));
+    let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(f));
+    GUARDED.with(|g| g.set(false));
+    r.unwrap_or_else(|_| Err(ReadError::Workbook { detail: "the reader stopped on a damaged part of the file".into() }))
 }
 
 /// Days since 1970-01-01 of a spreadsheet date-time cell.
@@ -45,6 +67,10 @@ fn raw(cell: &Data) -> RawCell<'_> {
 
 /// Reads one sheet (the first with data unless `options.sheet` names one).
 pub fn read_workbook(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
+    guarded(|| read_unguarded(bytes, options, format))
+}
+
+fn read_unguarded(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
     let limits = options.limits;
     super::zip_guard(bytes, limits)?;
     let mut wb = open(bytes)?;
