@@ -263,3 +263,97 @@ pub fn draw_figure(canvas_id: &str, figure: &str) -> String {
         Err(e) => format!("The figure could not be drawn: {e}"),
     }
 }
+
+/// A selection request, as the page sends it.
+#[derive(Deserialize)]
+struct SelectRequestJson {
+    response: String,
+    #[serde(default)]
+    candidates: Option<String>,
+    #[serde(default)]
+    force: String,
+    #[serde(default = "yes")]
+    intercept: bool,
+    #[serde(default)]
+    weights: Option<String>,
+    /// adj-r2, aic, bic, cp, cv or p-value.
+    #[serde(default)]
+    by: Option<String>,
+    /// exhaustive, forward, backward or both.
+    #[serde(default)]
+    search: Option<String>,
+    #[serde(default)]
+    stability: Option<usize>,
+    #[serde(default)]
+    seed: Option<u64>,
+    #[serde(default)]
+    folds: Option<usize>,
+    #[serde(flatten)]
+    read: ReadRequest,
+}
+
+/// Runs a selection; `progress` is called with the share of subsets
+/// covered by the exhaustive search (the page stops a search by ending
+/// the worker). Without `candidates` the profile's suggestions are used.
+#[wasm_bindgen]
+pub fn select_bytes(bytes: &[u8], request: &str, progress: &js_sys::Function) -> String {
+    use crate::select::stepwise::Direction;
+    use crate::select::{select, Criterion, Search, SelectOptions, SelectRequest};
+    let req: SelectRequestJson = match serde_json::from_str(request) {
+        Ok(r) => r,
+        Err(e) => return error("request", &format!("The selection request is not valid: {e}")),
+    };
+    let table = match req.read.load(bytes) {
+        Ok(l) => l.table,
+        Err(e) => return error("read", &format!("Could not read the file: {e}")),
+    };
+    let response = match parse_term(&req.response) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the response: {e}")),
+    };
+    let candidates = match &req.candidates {
+        Some(c) => match parse_terms(c) {
+            Ok(t) => t,
+            Err(e) => return error("terms", &format!("In the candidates: {e}")),
+        },
+        None => {
+            let profile = profile_table(&table, &ProfileOptions::default());
+            let texts = crate::profile::default_terms(&profile, &response.columns());
+            parse_terms(&texts.join(", ")).unwrap_or_default()
+        }
+    };
+    let forced = match parse_terms(&req.force) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the terms always in: {e}")),
+    };
+    let mut o = SelectOptions::default();
+    if let Some(b) = &req.by {
+        match Criterion::parse(b) {
+            Some(c) => o.by = c,
+            None => return error("request", &format!("\"{b}\" is not a way to choose; use adj-r2, aic, bic, cp, cv or p-value.")),
+        }
+    }
+    o.search = match req.search.as_deref() {
+        None | Some("exhaustive") => Search::Exhaustive,
+        Some("forward") => Search::Stepwise(Direction::Forward),
+        Some("backward") => Search::Stepwise(Direction::Backward),
+        Some("both") => Search::Stepwise(Direction::Both),
+        Some(other) => return error("request", &format!("\"{other}\" is not a search; use exhaustive, forward, backward or both.")),
+    };
+    o.stability = req.stability;
+    if let Some(s) = req.seed {
+        o.seed = s;
+    }
+    if let Some(k) = req.folds {
+        o.folds = k.max(2);
+    }
+    let sreq = SelectRequest { response, candidates, forced, intercept: req.intercept, weights: req.weights };
+    let mut report = |share: f64| {
+        let _ = progress.call1(&JsValue::NULL, &JsValue::from_f64(share));
+        true
+    };
+    match select(&table, &sreq, &o, Some(&mut report)) {
+        Ok(r) => ok(&r),
+        Err(e) => error("model", &e.to_string()),
+    }
+}
