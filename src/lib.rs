@@ -14,6 +14,7 @@
 //!     terms: terms::parse_terms("x").unwrap(),
 //!     intercept: true,
 //!     weights: None,
+//!     exclude: Vec::new(),
 //! };
 //! let fitted = model::fit(&table, &spec, &model::FitOptions::default()).unwrap();
 //! let slope = &fitted.report.coefficients[1];

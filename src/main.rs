@@ -35,6 +35,7 @@ Options of fit:
   --level L         confidence level of the intervals (default 0.95)
   --weights C       weighted least squares with weights from column C
   --hc3             also report HC3 heteroscedasticity-robust standard errors
+  --exclude-rows N,M  leave these rows (numbered as in the file) out of the fit
   --json            print the result as JSON
   --help            show this text
 
@@ -70,6 +71,7 @@ struct RawFitArgs {
     hc3: bool,
     json: bool,
     plots: Option<String>,
+    exclude: Vec<usize>,
     read: RawReadArgs,
 }
 
@@ -167,6 +169,15 @@ fn parse_fit_args(args: &[String], command: &str) -> Result<RawFitArgs, Failure>
             "--hc3" => raw.hc3 = true,
             "--json" => raw.json = true,
             "--plots" => raw.plots = Some(value(a)?),
+            "--exclude-rows" => {
+                let v = value(a)?;
+                for part in v.split(',').map(str::trim).filter(|x| !x.is_empty()) {
+                    let row = part.parse::<usize>().map_err(|_| {
+                        Failure::usage(format!("--exclude-rows takes row numbers separated by commas, such as 12,40; \"{part}\" is not one."))
+                    })?;
+                    raw.exclude.push(row);
+                }
+            }
             "--help" | "-h" => return Err(Failure { code: 0, message: USAGE.to_string() }),
             s if s.starts_with("--") => {
                 return Err(Failure::usage(format!("There is no option \"{s}\" for {command}.\n\n{USAGE}")))
@@ -210,7 +221,7 @@ fn model_request(args: &[String], command: &str) -> Result<ModelRequest, Failure
     if raw.plots.is_some() && command != "check" {
         return Err(Failure::usage(format!("--plots belongs to check, not {command}.")));
     }
-    let spec = ModelSpec { response, terms, intercept: !raw.no_intercept, weights: raw.weights };
+    let spec = ModelSpec { response, terms, intercept: !raw.no_intercept, weights: raw.weights, exclude: raw.exclude };
     let loaded = load_table(&file, &raw.read)?;
     Ok(ModelRequest { spec, options, loaded, json: raw.json, plots: raw.plots })
 }
@@ -423,7 +434,7 @@ fn run_select(args: &[String]) -> Result<String, Failure> {
     if candidate_terms.is_empty() && forced.is_empty() {
         return Err(Failure::data("There are no candidate terms to choose from; give --candidates."));
     }
-    let req = plumbline::select::SelectRequest { response, candidates: candidate_terms, forced, intercept, weights };
+    let req = plumbline::select::SelectRequest { response, candidates: candidate_terms, forced, intercept, weights, exclude: Vec::new() };
     let report = select(&loaded.table, &req, &o, None).map_err(|e| Failure::data(e.to_string()))?;
     if json {
         to_json(&report)

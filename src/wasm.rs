@@ -42,6 +42,8 @@ struct ReadRequest {
     header_row: Option<usize>,
     /// The bytes are cells pasted from a spreadsheet.
     paste: bool,
+    /// Source row numbers the user has left out of the model.
+    exclude_rows: Vec<usize>,
 }
 
 impl ReadRequest {
@@ -192,7 +194,7 @@ pub fn fit_bytes(bytes: &[u8], request: &str) -> String {
         Ok(t) => t,
         Err(e) => return error("terms", &format!("In the terms: {e}")),
     };
-    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights };
+    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows.clone() };
     let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
     match fit(&table, &spec, &options) {
         Ok(f) => ok(&f.report),
@@ -233,7 +235,7 @@ pub fn check_bytes(bytes: &[u8], request: &str) -> String {
         Ok(t) => t,
         Err(e) => return error("terms", &format!("In the terms: {e}")),
     };
-    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights };
+    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows.clone() };
     let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
     let fitted = match fit(&table, &spec, &options) {
         Ok(f) => f,
@@ -347,7 +349,7 @@ pub fn select_bytes(bytes: &[u8], request: &str, progress: &js_sys::Function) ->
     if let Some(k) = req.folds {
         o.folds = k.max(2);
     }
-    let sreq = SelectRequest { response, candidates, forced, intercept: req.intercept, weights: req.weights };
+    let sreq = SelectRequest { response, candidates, forced, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows.clone() };
     let mut report = |share: f64| {
         let _ = progress.call1(&JsValue::NULL, &JsValue::from_f64(share));
         true

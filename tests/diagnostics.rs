@@ -104,6 +104,7 @@ fn influence_collinearity_and_residual_tests_match_numpy() {
             terms: plumbline::terms::parse_terms(req["terms"].as_str().unwrap()).unwrap(),
             intercept: true,
             weights: None,
+            exclude: Vec::new(),
         };
         let c = plumbline::diagnostics::check(&fitted, &spec, None);
         let mut m = Mismatches::default();
@@ -193,6 +194,7 @@ fn findings_name_the_planted_row() {
         terms: plumbline::terms::parse_terms(req["terms"].as_str().unwrap()).unwrap(),
         intercept: true,
         weights: None,
+        exclude: Vec::new(),
     };
     let c = plumbline::diagnostics::check(&fitted, &spec, Some("Survey"));
     let planted = p["max_cooks_row"].as_u64().unwrap() as usize;

@@ -20,6 +20,7 @@ fn demo_check() -> (Vec<plumbline::plot::data::Figure>, usize) {
         terms: plumbline::terms::parse_terms(terms).unwrap(),
         intercept: true,
         weights: None,
+        exclude: Vec::new(),
     };
     let c = plumbline::diagnostics::check(&fitted, &spec, None);
     let n = c.rows.len();

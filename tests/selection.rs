@@ -16,7 +16,7 @@ use plumbline::terms::{parse_term, parse_terms};
 use serde_json::Value;
 
 fn problem(table: &Table, response: &str, candidates: &str, force: &str) -> Problem {
-    Problem::new(table, &parse_term(response).unwrap(), &parse_terms(candidates).unwrap(), &parse_terms(force).unwrap(), true, None).unwrap()
+    Problem::new(table, &parse_term(response).unwrap(), &parse_terms(candidates).unwrap(), &parse_terms(force).unwrap(), true, None, &[]).unwrap()
 }
 
 fn request(response: &str, candidates: &str, force: &str) -> SelectRequest {
@@ -26,6 +26,7 @@ fn request(response: &str, candidates: &str, force: &str) -> SelectRequest {
         forced: parse_terms(force).unwrap(),
         intercept: true,
         weights: None,
+        exclude: Vec::new(),
     }
 }
 

@@ -326,6 +326,8 @@ pub struct SelectRequest {
     pub forced: Vec<Term>,
     pub intercept: bool,
     pub weights: Option<String>,
+    /// Source row numbers the user has left out.
+    pub exclude: Vec<usize>,
 }
 
 /// The bootstrap's tallies: the summary, and how often each set won.
@@ -346,7 +348,7 @@ impl Bootstrap {
 pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: Option<&mut dyn FnMut(f64) -> bool>) -> Result<SelectReport, SelectError> {
     let watched = progress.is_some();
     let (response, intercept, weights) = (&req.response, req.intercept, req.weights.clone());
-    let p = Problem::new(table, response, &req.candidates, &req.forced, intercept, weights.clone())?;
+    let p = Problem::new(table, response, &req.candidates, &req.forced, intercept, weights.clone(), &req.exclude)?;
     let all: Vec<usize> = (0..p.candidates.len()).collect();
     let (rss_full, k_full) = p.rss(&all);
     let cols_full = p.columns_of(&all).len();
@@ -530,6 +532,7 @@ pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: O
         terms: winner.iter().map(|&t| p.candidates[t].term.clone()).collect(),
         intercept,
         weights,
+        exclude: req.exclude.clone(),
     };
     let best_fit = fit(table, &spec, &FitOptions::default())?;
     let mut fit_report = best_fit.report;

@@ -66,14 +66,22 @@ fn contains_factor(a: &Term, b: &Term) -> bool {
 
 impl Problem {
     /// Builds the problem; `forced` are terms always in the model.
-    pub fn new(table: &Table, response: &Term, candidates: &[Term], forced: &[Term], intercept: bool, weights: Option<String>) -> Result<Problem, FitError> {
+    pub fn new(
+        table: &Table,
+        response: &Term,
+        candidates: &[Term],
+        forced: &[Term],
+        intercept: bool,
+        weights: Option<String>,
+        exclude: &[usize],
+    ) -> Result<Problem, FitError> {
         let mut all: Vec<Term> = forced.to_vec();
         for c in candidates {
             if !all.contains(c) {
                 all.push(c.clone());
             }
         }
-        let spec = ModelSpec { response: response.clone(), terms: all.clone(), intercept, weights };
+        let spec = ModelSpec { response: response.clone(), terms: all.clone(), intercept, weights, exclude: exclude.to_vec() };
         let design = build_design(table, &spec)?;
         let n = design.rows.len();
         let root: Vec<DD> = match &design.weights {

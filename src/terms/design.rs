@@ -21,6 +21,8 @@ pub struct ModelSpec {
     pub intercept: bool,
     /// A column of observation weights, for weighted least squares.
     pub weights: Option<String>,
+    /// Source row numbers (as in the user's file) to leave out.
+    pub exclude: Vec<usize>,
 }
 
 /// One column of the design matrix.
@@ -207,6 +209,26 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
     let n_all = table.n_rows();
     let mut keep = vec![true; n_all];
     let mut dropped: Vec<DroppedRows> = Vec::new();
+    let mut warnings = Vec::new();
+    if !spec.exclude.is_empty() {
+        let mut d = DroppedRows { reason: "left out by you".into(), column: String::new(), count: 0, first_rows: vec![] };
+        for (i, k) in keep.iter_mut().enumerate() {
+            if spec.exclude.contains(&table.source_rows[i]) {
+                *k = false;
+                d.count += 1;
+                if d.first_rows.len() < 10 {
+                    d.first_rows.push(table.source_rows[i]);
+                }
+            }
+        }
+        let unknown: Vec<String> = spec.exclude.iter().filter(|r| !table.source_rows.contains(r)).map(|r| r.to_string()).collect();
+        if !unknown.is_empty() {
+            warnings.push(format!("Row {} to leave out {} not among the data rows.", unknown.join(", "), if unknown.len() == 1 { "is" } else { "are" }));
+        }
+        if d.count > 0 {
+            dropped.push(d);
+        }
+    }
     for &name in &seen {
         let data = &table.column(name).expect("checked above").data;
         let mut d = DroppedRows { reason: format!("missing value in {name}"), column: name.into(), count: 0, first_rows: vec![] };
@@ -261,7 +283,6 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
     }
 
     let ctx = EvalContext { table, rows: &rows };
-    let mut warnings = Vec::new();
     for (name, u) in &uses {
         let is_date = matches!(table.column(name).map(|c| &c.data), Some(ColumnData::Date(_)));
         let note = format!("Dates in \"{name}\" are used as a number: days since 1970-01-01.");
@@ -563,6 +584,7 @@ mod tests {
             terms: parse_terms(terms).unwrap(),
             intercept: true,
             weights: None,
+            exclude: Vec::new(),
         }
     }
 
@@ -609,6 +631,17 @@ mod tests {
         assert!(matches!(e, DesignError::CategoricalResponse { .. }), "{e}");
         let e = design("y,x\n1,1e200\n2,3\n", "y", "x^2").unwrap_err();
         assert_eq!(e, DesignError::Overflow { term: "x^2".into(), first_row: 2 });
+    }
+
+    #[test]
+    fn rows_left_out_by_the_user_are_reported() {
+        let t = read_csv(DATA.as_bytes()).unwrap();
+        let mut s = spec("y", "zone");
+        s.exclude = vec![3, 99];
+        let d = build_design(&t, &s).unwrap();
+        assert_eq!(d.rows, [0, 2, 3, 4]);
+        assert_eq!(d.dropped[0], DroppedRows { reason: "left out by you".into(), column: String::new(), count: 1, first_rows: vec![3] });
+        assert_eq!(d.warnings, ["Row 99 to leave out is not among the data rows."]);
     }
 
     #[test]

@@ -27,6 +27,7 @@ pub fn fit_file(csv: &Path, response: &str, terms: &str, intercept: bool, weight
         terms: parse_terms(terms).unwrap(),
         intercept,
         weights: weights.map(String::from),
+        exclude: Vec::new(),
     };
     fit(&table, &spec, &options).unwrap_or_else(|e| panic!("{}: {e}", csv.display()))
 }
@@ -145,6 +146,7 @@ pub fn fit_table(table: &plumbline::table::Table, response: &str, terms: &str, i
         terms: parse_terms(terms).unwrap(),
         intercept,
         weights: None,
+        exclude: Vec::new(),
     };
     fit(table, &spec, &options)
 }
