@@ -32,6 +32,7 @@ pub mod inference;
 pub mod lstsq;
 pub mod model;
 pub mod plot;
+pub mod predict;
 pub mod profile;
 pub mod read;
 pub mod schema;

@@ -17,6 +17,7 @@ Usage:
   plumbline check FILE --response R [--terms \"...\"] [fit options] [--plots DIR]
   plumbline select FILE --response R [--candidates \"...\"] [--force \"...\"]
                  [--by adj-r2|aic|bic|cp|cv|p-value] [select options]
+  plumbline predict FILE --response R --terms \"...\" --new NEWFILE [fit options]
   plumbline profile FILE [--kind COLUMN=KIND ...] [--json]
   plumbline sheets FILE
 
@@ -36,6 +37,8 @@ Options of fit:
   --weights C       weighted least squares with weights from column C
   --hc3             also report HC3 heteroscedasticity-robust standard errors
   --exclude-rows N,M  leave these rows (numbered as in the file) out of the fit
+  --new NEWFILE     (predict) the new cases, with the same columns
+  --new-sheet NAME  (predict) the sheet of NEWFILE
   --json            print the result as JSON
   --help            show this text
 
@@ -72,6 +75,8 @@ struct RawFitArgs {
     json: bool,
     plots: Option<String>,
     exclude: Vec<usize>,
+    new: Option<String>,
+    new_sheet: Option<String>,
     read: RawReadArgs,
 }
 
@@ -144,6 +149,7 @@ fn run(args: &[String]) -> Result<String, Failure> {
         Some("fit") => run_fit(&args[1..]),
         Some("check") => run_check(&args[1..]),
         Some("select") => run_select(&args[1..]),
+        Some("predict") => run_predict(&args[1..]),
         Some("profile") => run_profile(&args[1..]),
         Some("sheets") => run_sheets(&args[1..]),
         Some(other) => Err(Failure::usage(format!("There is no command \"{other}\".\n\n{USAGE}"))),
@@ -169,6 +175,8 @@ fn parse_fit_args(args: &[String], command: &str) -> Result<RawFitArgs, Failure>
             "--hc3" => raw.hc3 = true,
             "--json" => raw.json = true,
             "--plots" => raw.plots = Some(value(a)?),
+            "--new" => raw.new = Some(value(a)?),
+            "--new-sheet" => raw.new_sheet = Some(value(a)?),
             "--exclude-rows" => {
                 let v = value(a)?;
                 for part in v.split(',').map(str::trim).filter(|x| !x.is_empty()) {
@@ -200,6 +208,7 @@ struct ModelRequest {
     loaded: Loaded,
     json: bool,
     plots: Option<String>,
+    new: Option<(String, Option<String>)>,
 }
 
 fn model_request(args: &[String], command: &str) -> Result<ModelRequest, Failure> {
@@ -221,9 +230,16 @@ fn model_request(args: &[String], command: &str) -> Result<ModelRequest, Failure
     if raw.plots.is_some() && command != "check" {
         return Err(Failure::usage(format!("--plots belongs to check, not {command}.")));
     }
+    if raw.new.is_some() != (command == "predict") {
+        return Err(Failure::usage(if command == "predict" {
+            "predict needs --new NEWFILE, the cases to predict.".to_string()
+        } else {
+            format!("--new belongs to predict, not {command}.")
+        }));
+    }
     let spec = ModelSpec { response, terms, intercept: !raw.no_intercept, weights: raw.weights, exclude: raw.exclude };
     let loaded = load_table(&file, &raw.read)?;
-    Ok(ModelRequest { spec, options, loaded, json: raw.json, plots: raw.plots })
+    Ok(ModelRequest { spec, options, loaded, json: raw.json, plots: raw.plots, new: raw.new.map(|n| (n, raw.new_sheet)) })
 }
 
 fn to_json<T: serde::Serialize>(v: &T) -> Result<String, Failure> {
@@ -440,5 +456,21 @@ fn run_select(args: &[String]) -> Result<String, Failure> {
         to_json(&report)
     } else {
         Ok(plumbline::text::render_select(&report))
+    }
+}
+
+fn run_predict(args: &[String]) -> Result<String, Failure> {
+    let req = model_request(args, "predict")?;
+    let table = &req.loaded.table;
+    let fitted = fit(table, &req.spec, &req.options).map_err(|e| Failure::data(e.to_string()))?;
+    let (path, sheet) = req.new.clone().expect("checked in model_request");
+    let read = RawReadArgs { sheet, header_row: None };
+    let new = load_table(&path, &read)?.table;
+    let report = plumbline::predict::predict(&fitted, &req.spec, table, &new, req.options.level)
+        .map_err(|e| Failure::data(format!("In the new cases: {e}")))?;
+    if req.json {
+        to_json(&report)
+    } else {
+        Ok(plumbline::text::render_predict(&report))
     }
 }

@@ -288,6 +288,54 @@ pub fn render_check(c: &CheckReport, sheet: Option<&str>) -> String {
     s
 }
 
+/// Renders predictions as text.
+pub fn render_predict(r: &crate::predict::PredictReport) -> String {
+    let mut s = String::new();
+    let pct = format!("{}", (r.level * 1e6).round() / 1e4);
+    let _ = writeln!(s, "Predictions of {} with {pct}% intervals", r.response);
+    if let Some(b) = &r.back_transform {
+        let _ = writeln!(s, "  on the original scale by {b}");
+    }
+    let mut rows: Vec<Vec<String>> = vec![["row", "estimate", "mean low", "mean high", "case low", "case high"].iter().map(|x| x.to_string()).collect()];
+    let mut remarks = Vec::new();
+    for p in &r.predictions {
+        if let Some(problem) = &p.problem {
+            remarks.push(format!("row {}: {problem}", p.row));
+        } else if p.extrapolation {
+            remarks.push(format!("row {}: an extrapolation: {}.", p.row, p.extrapolation_reasons.join("; ")));
+        }
+        let (e, a, b, c, d) = match (&p.original, p.estimate) {
+            (Some(o), _) => (o.estimate, o.ci_low, o.ci_high, o.pi_low, o.pi_high),
+            (None, Some(e)) => (e, p.ci_low.unwrap_or(f64::NAN), p.ci_high.unwrap_or(f64::NAN), p.pi_low.unwrap_or(f64::NAN), p.pi_high.unwrap_or(f64::NAN)),
+            (None, None) => {
+                rows.push(vec![p.row.to_string(), "no prediction".into(), "".into(), "".into(), "".into(), "".into()]);
+                continue;
+            }
+        };
+        rows.push(vec![
+            p.row.to_string(),
+            short(e, 5),
+            short(a, 5),
+            short(b, 5),
+            short(c, 5),
+            if p.extrapolation { format!("{}*", short(d, 5)) } else { short(d, 5) },
+        ]);
+    }
+    s.push_str(&table_lines(&rows, "  "));
+    for m in &remarks {
+        let _ = writeln!(s, "  {m}");
+    }
+    let _ = writeln!(s, "  (mean: where the average of such cases lies; case: where one new case lies; * an extrapolation)");
+    for n in &r.notes {
+        let _ = writeln!(s, "  - {n}");
+    }
+    let _ = writeln!(s, "\nBefore you rely on this");
+    for c in &r.cautions {
+        let _ = writeln!(s, "  - {c}");
+    }
+    s
+}
+
 /// Renders a selection as text.
 pub fn render_select(r: &crate::select::SelectReport) -> String {
     let mut s = String::new();

@@ -11,6 +11,7 @@ use crate::lstsq::dd::DD;
 use crate::lstsq::DdColumn;
 use crate::table::{parse_number, ColumnData, Table};
 use serde::Serialize;
+use std::cell::RefCell;
 use std::fmt;
 
 /// What to fit: a response, its terms, and the options that shape the design.
@@ -47,9 +48,22 @@ pub struct DroppedRows {
     pub first_rows: Vec<usize>,
 }
 
+/// The levels a category term was coded with, so that new rows can be
+/// coded the same way.
+#[derive(Clone, Debug, PartialEq)]
+pub struct CategoryLevels {
+    pub column: String,
+    pub reference: Option<String>,
+    /// Level labels in sorted order; `levels[ref_index]` is the reference.
+    pub levels: Vec<String>,
+    pub ref_index: usize,
+}
+
 /// The design matrix and what was done to get it.
 #[derive(Clone, Debug)]
 pub struct Design {
+    /// How each category was coded.
+    pub levels: Vec<CategoryLevels>,
     pub response_label: String,
     pub response: DdColumn,
     pub columns: Vec<DesignColumn>,
@@ -82,6 +96,8 @@ pub enum DesignError {
     CategoricalResponse { term: String },
     /// A term's values overflow (beyond about 1e308).
     Overflow { term: String, first_row: usize },
+    /// A new row holds a category level the model was not fitted with.
+    UnseenLevel { column: String, level: String, row: usize, levels: Vec<String> },
 }
 
 impl fmt::Display for DesignError {
@@ -134,6 +150,11 @@ impl fmt::Display for DesignError {
             DesignError::CategoricalResponse { term } => write!(
                 f,
                 "The response {term} is a category; plumbline fits a numeric response. Choose a numeric column."
+            ),
+            DesignError::UnseenLevel { column, level, row, levels } => write!(
+                f,
+                "Row {row} has \"{level}\" in \"{column}\", a value the model never saw (it knows {}); it cannot be predicted.",
+                levels.join(", ")
             ),
             DesignError::Overflow { term, first_row } => write!(
                 f,
@@ -282,7 +303,7 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
         return Err(DesignError::NoCompleteRows { missing });
     }
 
-    let ctx = EvalContext { table, rows: &rows };
+    let ctx = EvalContext { table, rows: &rows, fixed: None, recorded: RefCell::new(Vec::new()) };
     for (name, u) in &uses {
         let is_date = matches!(table.column(name).map(|c| &c.data), Some(ColumnData::Date(_)));
         let note = format!("Dates in \"{name}\" are used as a number: days since 1970-01-01.");
@@ -324,6 +345,7 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
         }
     }
     Ok(Design {
+        levels: ctx.recorded.into_inner(),
         response_label,
         response: DdColumn::from_dd(&response),
         columns,
@@ -417,6 +439,29 @@ enum Value {
 struct EvalContext<'a> {
     table: &'a Table,
     rows: &'a [usize],
+    /// Levels to code categories with (new rows); `None` takes them from the rows.
+    fixed: Option<&'a [CategoryLevels]>,
+    recorded: RefCell<Vec<CategoryLevels>>,
+}
+
+/// The term columns of `spec` on the given rows of a (new) table, with the
+/// categories coded by `levels`. A level not among them is refused.
+pub fn term_columns(table: &Table, spec: &ModelSpec, levels: &[CategoryLevels], rows: &[usize]) -> Result<Vec<DesignColumn>, DesignError> {
+    let ctx = EvalContext { table, rows, fixed: Some(levels), recorded: RefCell::new(Vec::new()) };
+    let mut columns = Vec::new();
+    if spec.intercept {
+        columns.push(DesignColumn { label: "(intercept)".into(), term: None, values: DdColumn::from_f64(vec![1.0; rows.len()]) });
+    }
+    for (ti, term) in spec.terms.iter().enumerate() {
+        let cols = match ctx.eval(term)? {
+            Value::Number(v) => vec![(term.to_string(), v)],
+            Value::Columns(c) => c,
+        };
+        for (l, v) in cols {
+            columns.push(DesignColumn { label: l, term: Some(ti), values: DdColumn::from_dd(&v) });
+        }
+    }
+    Ok(columns)
 }
 
 impl EvalContext<'_> {
@@ -520,6 +565,31 @@ impl EvalContext<'_> {
                 }
             }
         };
+        if let Some(fixed) = self.fixed {
+            let coded = fixed
+                .iter()
+                .find(|c| c.column == column && c.reference.as_deref() == reference)
+                .ok_or_else(|| DesignError::UnknownColumn { name: column.into(), suggestions: Vec::new() })?;
+            let mut out: Vec<(String, Vec<DD>)> = coded
+                .levels
+                .iter()
+                .enumerate()
+                .filter(|(j, _)| *j != coded.ref_index)
+                .map(|(_, l)| (format!("{column}={l}"), Vec::with_capacity(keys.len())))
+                .collect();
+            for (i, k) in keys.iter().enumerate() {
+                let label = k.label();
+                let Some(j) = coded.levels.iter().position(|l| *l == label) else {
+                    return Err(DesignError::UnseenLevel { column: column.into(), level: label, row: self.source_row(i), levels: coded.levels.clone() });
+                };
+                let mut slot = 0;
+                for (jj, _) in coded.levels.iter().enumerate().filter(|(jj, _)| *jj != coded.ref_index) {
+                    out[slot].1.push(if jj == j { DD::ONE } else { DD::ZERO });
+                    slot += 1;
+                }
+            }
+            return Ok(out);
+        }
         let mut levels: Vec<Level> = Vec::new();
         for k in &keys {
             if !levels.contains(k) {
@@ -542,6 +612,10 @@ impl EvalContext<'_> {
                 })?
             }
         };
+        let coded = CategoryLevels { column: column.into(), reference: reference.map(String::from), levels: labels.clone(), ref_index };
+        if !self.recorded.borrow().contains(&coded) {
+            self.recorded.borrow_mut().push(coded);
+        }
         Ok(levels
             .iter()
             .enumerate()
