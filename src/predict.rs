@@ -78,8 +78,11 @@ pub struct PredictReport {
     pub cautions: Vec<String>,
 }
 
+/// A back-transform: its description and the function.
+type Inverse = (String, Box<dyn Fn(f64) -> f64>);
+
 /// The inverse of the response transform, when there is one.
-fn inverse(response: &Term) -> Option<(String, Box<dyn Fn(f64) -> f64>)> {
+fn inverse(response: &Term) -> Option<Inverse> {
     match response {
         Term::Log(inner) if matches!(**inner, Term::Column(_)) => Some(("exp, with Duan's smearing".into(), Box::new(f64::exp))),
         Term::Sqrt(inner) if matches!(**inner, Term::Column(_)) => Some(("square, with Duan's smearing".into(), Box::new(|v: f64| v.max(0.0) * v.max(0.0)))),

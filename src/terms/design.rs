@@ -582,10 +582,8 @@ impl EvalContext<'_> {
                 let Some(j) = coded.levels.iter().position(|l| *l == label) else {
                     return Err(DesignError::UnseenLevel { column: column.into(), level: label, row: self.source_row(i), levels: coded.levels.clone() });
                 };
-                let mut slot = 0;
-                for (jj, _) in coded.levels.iter().enumerate().filter(|(jj, _)| *jj != coded.ref_index) {
+                for (slot, (jj, _)) in coded.levels.iter().enumerate().filter(|(jj, _)| *jj != coded.ref_index).enumerate() {
                     out[slot].1.push(if jj == j { DD::ONE } else { DD::ZERO });
-                    slot += 1;
                 }
             }
             return Ok(out);
