@@ -352,7 +352,7 @@ pub fn render_select(r: &crate::select::SelectReport) -> String {
     let _ = writeln!(s, "  {}", r.recommended.reason);
 
     let _ = writeln!(s, "\nCandidates side by side");
-    let mut rows: Vec<Vec<String>> = vec![["terms", "k", "RSS", "R²", "adj. R²", "AIC", "BIC", "Cp", "CV RMSE", "stability", "best by"].iter().map(|x| x.to_string()).collect()];
+    let mut rows: Vec<Vec<String>> = vec![["terms", "k", "RSS", "R²", "adj. R²", "AIC", "BIC", "Cp", "CV RMSE", "LOO RMSE", "stability", "best by"].iter().map(|x| x.to_string()).collect()];
     for c in &r.comparison {
         let terms = if c.terms.is_empty() { "(intercept only)".to_string() } else { c.terms.join(", ") };
         let wins: Vec<&str> = c.wins.iter().map(|w| match w {
@@ -373,6 +373,7 @@ pub fn render_select(r: &crate::select::SelectReport) -> String {
             short(c.criteria.bic, 6),
             short(c.criteria.cp, 4),
             short(c.cv_rmse, 4),
+            short(c.loo_rmse, 4),
             c.stability.map_or(String::new(), |v| format!("{}%", (v * 100.0).round())),
             wins.join(", "),
         ]);

@@ -111,6 +111,11 @@ fn selection_matches_numpy_brute_force_and_cv() {
         }
         let all: Vec<usize> = (0..p.candidates.len()).collect();
         let (press, loo) = cv::press(&p, &all);
+        // The full model's row in the comparison carries the same PRESS.
+        let rep = select(&table, &request(resp, cands, force), &SelectOptions::default(), None).unwrap();
+        if let Some(full) = rep.comparison.iter().find(|c| c.terms.len() == p.candidates.len()) {
+            m.check("press in the comparison", full.press, json_f64(&doc["press"]), 1e-10, 0.0);
+        }
         m.check("press", press, json_f64(&doc["press"]), 1e-10, 0.0);
         m.check("loo rmse", loo, json_f64(&doc["loo_rmse"]), 1e-10, 0.0);
         m.assert_none(name);

@@ -109,6 +109,12 @@ pub struct Candidate {
     pub cv_rmse: f64,
     #[serde(serialize_with = "crate::schema::num")]
     pub cv_mae: f64,
+    /// Σ(eᵢ/(1 − hᵢ))², the leave-one-out squared error from one fit.
+    #[serde(serialize_with = "crate::schema::num")]
+    pub press: f64,
+    /// √(PRESS/n).
+    #[serde(serialize_with = "crate::schema::num")]
+    pub loo_rmse: f64,
     /// Share of bootstrap resamples whose winner was exactly this set.
     #[serde(serialize_with = "crate::schema::opt_num")]
     pub stability: Option<f64>,
@@ -502,6 +508,7 @@ pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: O
         .map(|s| {
             let (rss, _) = p.rss(s);
             let e = cv_of(s);
+            let (press, loo_rmse) = cv::press(&p, s);
             let mut wins = Vec::new();
             for (c, w) in [
                 (Criterion::AdjR2, &adj_set),
@@ -520,6 +527,8 @@ pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: O
                 criteria: crit_of(s, rss),
                 cv_rmse: e.rmse,
                 cv_mae: e.mae,
+                press,
+                loo_rmse,
                 stability: stability.as_ref().map(|b| b.share_of(s)),
                 wins,
             }
