@@ -110,18 +110,28 @@ impl fmt::Display for Term {
             Term::BoxCox(t, l) => write!(f, "boxcox({t}, {l})"),
             Term::YeoJohnson(t, l) => write!(f, "yeojohnson({t}, {l})"),
             Term::Power(t, k) => match **t {
-                Term::Product(..) => write!(f, "({t})^{k}"),
+                Term::Product(..) | Term::Power(..) => write!(f, "({t})^{k}"),
                 _ => write!(f, "{t}^{k}"),
             },
             Term::Cat { column, reference: None } => write!(f, "cat({})", quote_name(column)),
             Term::Cat { column, reference: Some(r) } => write!(f, "cat({}, ref={})", quote_name(column), quote_level(r)),
-            Term::Product(a, b) => write!(f, "{a}*{b}"),
+            // Products read left to right, so a right-hand product needs brackets.
+            Term::Product(a, b) => match **b {
+                Term::Product(..) => write!(f, "{a}*({b})"),
+                _ => write!(f, "{a}*{b}"),
+            },
         }
     }
 }
 
+/// Writes a level bare when it reads back as one token (a name, or a
+/// plain number), and quoted otherwise.
 fn quote_level(level: &str) -> String {
-    if !level.is_empty() && level.chars().all(|c| c.is_alphanumeric() || matches!(c, '_' | '.' | '-' | '+')) {
+    let mut chars = level.chars();
+    let name = chars.next().is_some_and(|c| c.is_alphabetic() || c == '_') && chars.all(|c| c.is_alphanumeric() || c == '_' || c == '.');
+    let number = level.chars().next().is_some_and(|c| c.is_ascii_digit() || c == '-' || c == '+')
+        && level.chars().skip(1).all(|c| c.is_ascii_alphanumeric() || c == '.' || c == '_');
+    if name || number {
         level.to_string()
     } else {
         format!("\"{}\"", level.replace('"', "\"\""))
@@ -455,6 +465,8 @@ mod tests {
         check("a*b, cat(g)*x, log(a)*b^2", &["a*b", "cat(g)*x", "log(a)*b^2"]);
         check("\"floor area (m2)\", \"say \"\"hi\"\"\"", &["\"floor area (m2)\"", "\"say \"\"hi\"\"\""]);
         check("(a*b)^2", &["(a*b)^2"]);
+        // Found by fuzzing: these must print in a form that reads back.
+        check("(a^2)^3, a*(b*c), cat(g, ref=\".a\"), cat(g, ref=\"a+b\")", &["(a^2)^3", "a*(b*c)", "cat(g, ref=\".a\")", "cat(g, ref=\"a+b\")"]);
         check("boxcox(area, 0.25), yeojohnson(x, -1.5)", &["boxcox(area, 0.25)", "yeojohnson(x, -1.5)"]);
     }
 
