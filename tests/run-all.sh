@@ -8,7 +8,7 @@ cd "$root"
 bash tests/setup.sh --browser
 
 echo "== Rust tests"
-cargo test
+cargo test --no-fail-fast
 
 echo "== NIST StRD accuracy (minimum LRE digits per set)"
 cat target/nist-lre.md
