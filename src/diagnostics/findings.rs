@@ -130,7 +130,7 @@ pub fn findings(c: &CheckReport, sheet: Option<&str>) -> Vec<Finding> {
             let grows = spread_grows_with_fit(c);
             let what = if grows { "grows with the fitted value" } else { "changes with the predictors" };
             let log_hint = if grows && c.fit.response.starts_with("log(") {
-                "use HC3 standard errors (--hc3)".to_string()
+                "use HC3 standard errors".to_string()
             } else if grows {
                 format!("consider the log of the response, log({}), if it is positive, or HC3 standard errors", c.fit.response)
             } else {

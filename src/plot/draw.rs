@@ -81,6 +81,8 @@ pub fn draw_figure<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, fig: &Figu
         .configure_mesh()
         .x_desc(fig.x_label.as_str())
         .y_desc(fig.y_label.as_str())
+        .x_labels(7)
+        .y_labels(8)
         .axis_desc_style(("sans-serif", 16))
         .label_style(("sans-serif", 13))
         .light_line_style(RGBColor(235, 235, 235))
@@ -133,7 +135,7 @@ fn draw_heatmap<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, fig: &Figure,
         .caption(&fig.title, ("sans-serif", 20))
         .margin(14)
         .margin_left(170)
-        .margin_bottom(165)
+        .margin_bottom(190)
         .build_cartesian_2d(0.0..k as f64, 0.0..k as f64)?;
     // Labels at the cell centres, drawn on the root so they are not clipped.
     let style = ("sans-serif", 12).into_font();

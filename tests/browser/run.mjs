@@ -103,8 +103,9 @@ async function shot(name) {
   await page.screenshot({ path: join(shots, `${name}.png`), fullPage: true });
 }
 
-function cliFit(file, { response, terms, intercept = true, level, hc3 = false }, input) {
+function cliFit(file, { response, terms, intercept = true, level, hc3 = false, exclude }, input) {
   const args = ['fit', file, '--response', response, '--terms', terms, '--json'];
+  if (exclude && exclude.length) args.push('--exclude-rows', exclude.join(','));
   if (!intercept) args.push('--no-intercept');
   if (level !== undefined) args.push('--level', String(level));
   if (hc3) args.push('--hc3');
@@ -834,6 +835,310 @@ test('HC3 and a changed level come through from the wasm', { timeout: 60000 }, a
   cli.coefficients.forEach((c, i) => assert.ok(relClose(fromFull(rows[i].cells[4].full), c.ci_low, 1e-9), `90% low of ${c.term}`));
   assert.match(await page.textContent('#coef-table thead'), /Low \(90%\)/);
   await shot('09-hc3-level-90');
+});
+
+/** A seeded generator (mulberry32), so that the big table is the same each run. */
+function seeded(seed) {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6D2B79F5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** A CSV of a response and 26 numeric columns of noise, 400 rows. */
+function bigNoiseCsv() {
+  const rnd = seeded(20240611);
+  const names = Array.from({ length: 26 }, (_, i) => `x${String(i + 1).padStart(2, '0')}`);
+  const lines = [['y', ...names].join(',')];
+  for (let r = 0; r < 400; r++) lines.push(Array.from({ length: 27 }, () => rnd().toFixed(5)).join(','));
+  return `${lines.join('\n')}\n`;
+}
+
+function cliSelect(file, { response, candidates, by, stability }) {
+  const args = ['select', file, '--response', response, '--candidates', candidates, '--json'];
+  if (by) args.push('--by', by);
+  if (stability) args.push('--stability', String(stability));
+  return JSON.parse(execFileSync(cliPath, args, { encoding: 'utf8', maxBuffer: 64 << 20 }));
+}
+
+function cliCheck(file, { response, terms }) {
+  return JSON.parse(execFileSync(cliPath, ['check', file, '--response', response, '--terms', terms, '--json'], { encoding: 'utf8', maxBuffer: 64 << 20 }));
+}
+
+/** Runs a page action that starts a search and waits until the page has its end. */
+async function afterSearch(action, timeout = 60000) {
+  const before = await page.evaluate(() => window.plumblineTest.searchesDone());
+  await action();
+  await page.waitForFunction((n) => window.plumblineTest.searchesDone() > n, before, { timeout });
+}
+
+/** Waits until the checks of the fit shown have all their figures drawn. */
+async function checksDrawn(before) {
+  await page.waitForFunction((n) => window.plumblineTest.figuresDrawn() > n, before, { timeout: 30000 });
+}
+
+test('a best-subset search on the demo runs through the page: progress to the end, the sets compared, one recommended', { timeout: 90000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  assert.equal(await page.inputValue('#candidates'), DEMO_TERMS, 'the candidates start as the suggested terms');
+  assert.equal(await page.inputValue('#choose-by'), 'bic', 'BIC is the default');
+  // Every value the progress bar takes, from the page itself.
+  await page.evaluate(() => {
+    window.progressSeen = [];
+    const bar = document.getElementById('search-progress');
+    new MutationObserver(() => window.progressSeen.push(Number(bar.getAttribute('aria-valuenow'))))
+      .observe(bar, { attributes: true, attributeFilter: ['aria-valuenow'] });
+  });
+  await afterSearch(() => page.click('#search-button'));
+  assert.ok(await page.isHidden('#choose-message'), await page.textContent('#choose-message'));
+  assert.equal(await page.getAttribute('#search-progress', 'role'), 'progressbar');
+  assert.equal(await page.getAttribute('#search-progress', 'aria-valuenow'), '100', 'the progress bar reaches its end');
+  const seen = await page.evaluate(() => window.progressSeen);
+  assert.ok(seen.length >= 2 && seen[0] === 0 && seen.at(-1) === 100, `progress from 0 to 100 (${seen.join(', ')})`);
+  assert.ok(seen.every((v, i) => i === 0 || v >= seen[i - 1] || v === 0), `progress never goes back (${seen.join(', ')})`);
+
+  const cli = cliSelect(demoCsv, { response: DEMO_RESPONSE, candidates: DEMO_TERMS });
+  const rows = page.locator('#comparison-table tbody tr');
+  const count = await rows.count();
+  assert.ok(count >= 5, `at least 5 sets compared (${count})`);
+  assert.equal(count, cli.comparison.length, 'the sets of the native CLI');
+  assert.equal(await page.locator('#comparison-table tbody tr.recommended').count(), 1, 'one recommended row');
+  const rec = page.locator('#comparison-table tbody tr.recommended');
+  assert.match(await rec.locator('th').textContent(), /^Recommended /, 'marked in words, not colour alone');
+  assert.ok((await rec.locator('th').textContent()).endsWith(cli.recommended.terms.join(', ')), 'the CLI\'s recommendation');
+  assert.equal(await page.textContent('#recommend-reason'), cli.recommended.reason);
+  const heads = await page.$$eval('#comparison-table thead th', (ths) => ths.map((t) => t.firstChild.textContent));
+  assert.deepEqual(heads, ['Terms', 'k', 'R²', 'Adjusted R²', 'AIC', 'BIC', 'Cp', 'CV RMSE', 'Stability', 'Best by', 'Model']);
+  // The numbers are the CLI's (full values in data-full).
+  const bic = await page.$$eval('#comparison-table tbody tr', (trs) => trs.map((tr) => Number(tr.querySelectorAll('td.num')[4].dataset.full)));
+  cli.comparison.forEach((c, i) => assert.ok(relClose(bic[i], c.bic, 1e-9), `BIC of set ${i + 1}: page ${bic[i]}, CLI ${c.bic}`));
+  assert.ok((await page.locator('#route-steps li').count()) >= 1, 'the p-value route is shown');
+  assert.deepEqual(await page.$$eval('#choose-cautions li', (lis) => lis.map((l) => l.textContent)), cli.cautions);
+  assert.ok(await page.isVisible('#choose-cautions'), 'the cautions are visible next to the results');
+  await page.locator('#choose').screenshot({ path: join(shots, '19-choose-the-terms.png') });
+
+  // How stable: bars with their percentages.
+  await page.check('#stability');
+  await page.fill('#resamples', '50');
+  await afterSearch(() => page.click('#search-button'));
+  const cliStable = cliSelect(demoCsv, { response: DEMO_RESPONSE, candidates: DEMO_TERMS, stability: 50 });
+  const bars = await page.$$eval('#stability-bars li', (lis) => lis.map((l) => [l.querySelector('.bar-term').textContent, l.querySelector('.bar-pct').textContent]));
+  assert.deepEqual(bars, cliStable.stability.terms.map((t) => [t.term, `${Math.round(t.share * 100)}%`]));
+  assert.match(await page.textContent('#stability-intro'), /50 resamples/);
+  await page.locator('#choose').screenshot({ path: join(shots, '20-choose-the-terms-stability.png') });
+
+  // Use this model: the set's terms go into the model's terms (undoable) and are fitted.
+  const three = cli.comparison.find((c) => c.k === 3);
+  const row = page.locator('#comparison-table tbody tr').filter({ has: page.locator('td.num', { hasText: /^3$/ }) }).first();
+  await afterFit(() => row.locator('button.use').click());
+  assert.equal(await page.inputValue('#terms'), three.terms.join(', '));
+  await assertCoefRows(3);
+  await page.click('#undo-button');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS, 'Undo takes the chosen terms back');
+  const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+  assert.ok(overflow <= 0, `no sideways scrolling at 1366 wide (overflow ${overflow}px)`);
+});
+
+test('Stop during a long search ends the worker, starts a fresh one and keeps the data', { timeout: 120000 }, async () => {
+  await openFresh();
+  await page.setInputFiles('#file-input', { name: 'noise-26.csv', mimeType: 'text/csv', buffer: Buffer.from(bigNoiseCsv()) });
+  await page.locator('#data-facts').filter({ hasText: 'noise-26.csv' }).waitFor({ timeout: 15000 });
+  assert.match(await page.textContent('#data-facts'), /400 rows of data, 27 columns/);
+  await page.selectOption('#response-column', 'y');
+  assert.equal(splitCount(await page.inputValue('#candidates')), 26, 'the 26 columns are the candidates');
+  // Every subset of 26 terms, then again on each resample: minutes of work.
+  await page.check('#stability');
+  await page.fill('#resamples', '100');
+  const workersBefore = workers.length;
+  const before = await page.evaluate(() => window.plumblineTest.searchesDone());
+  await page.click('#search-button');
+  await page.waitForFunction(() => Number(document.getElementById('search-progress').getAttribute('aria-valuenow')) > 0, null, { timeout: 30000 });
+  assert.ok(await page.isVisible('#stop-button'), 'Stop is offered while it runs');
+  assert.ok(await page.isDisabled('#search-button'));
+  const mid = Number(await page.getAttribute('#search-progress', 'aria-valuenow'));
+  await page.screenshot({ path: join(shots, '21-search-running.png'), clip: await page.locator('#choose').boundingBox() });
+  await page.click('#stop-button');
+  await page.waitForFunction((n) => window.plumblineTest.searchesDone() > n, before, { timeout: 10000 });
+  assert.equal(await page.textContent('#search-status'), 'Stopped.');
+  assert.ok(await page.isHidden('#stop-button'));
+  assert.ok(await page.isHidden('#search-progress'));
+  assert.ok(await page.isEnabled('#search-button'));
+  assert.equal(await page.evaluate(() => document.activeElement && document.activeElement.id), 'search-button', 'the focus stays in the step');
+  assert.ok(await page.isHidden('#choose-result'), 'no result from the stopped search');
+  assert.ok(mid > 0 && mid < 100, `stopped part way (${mid}%)`);
+  for (let i = 0; i < 50 && workers.length === workersBefore; i++) await page.waitForTimeout(100);
+  assert.equal(workers.length, workersBefore + 1, 'a fresh worker was started');
+  // The data stay, and the fresh worker fits and searches them.
+  assert.match(await page.textContent('#data-facts'), /noise-26\.csv: 400 rows of data/);
+  await page.fill('#terms', 'x01, x02');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(3);
+  assert.ok(await page.isHidden('#model-message'));
+  await page.uncheck('#stability');
+  await page.fill('#candidates', 'x01, x02, x03');
+  await afterSearch(() => page.click('#search-button'));
+  assert.match(await page.textContent('#search-status'), /^Done: /);
+  assert.ok((await page.locator('#comparison-table tbody tr').count()) >= 1);
+});
+
+function splitCount(text) {
+  return text.split(',').map((t) => t.trim()).filter(Boolean).length;
+}
+
+test('the Checks step shows the findings and tables and draws every figure', { timeout: 90000 }, async () => {
+  await openFresh();
+  const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+  await afterFit(() => page.click('#demo-button'));
+  await checksDrawn(drawn);
+  const cli = cliCheck(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  const plotsDir = join(shots, 'cli-plots');
+  execFileSync(cliPath, ['check', demoCsv, '--response', DEMO_RESPONSE, '--terms', DEMO_TERMS, '--plots', plotsDir]);
+  const cliFigures = readdirSync(plotsDir).filter((f) => f.endsWith('.png')).map((f) => f.replace(/\.png$/, '')).sort();
+
+  // Findings: ranked, severity in words.
+  const findings = await page.$$eval('#findings li', (lis) => lis.map((l) => [l.querySelector('.sev').textContent, l.querySelector('.finding-text').textContent]));
+  const words = { 3: 'Act on it', 2: 'Look at it', 1: 'Worth knowing', 0: 'Nothing found' };
+  const ranked = cli.findings.map((f, i) => [f, i]).sort((a, b) => b[0].severity - a[0].severity || a[1] - b[1]).map(([f]) => [words[f.severity], f.text]);
+  assert.deepEqual(findings, ranked);
+  assert.ok(findings.length > 0);
+  // The tests, the VIFs and the most influential rows.
+  const tests = await page.$$eval('#tests-table tbody tr', (trs) => trs.map((tr) => [tr.querySelector('th').textContent, tr.querySelector('td.num') ? tr.querySelectorAll('td.num')[2].dataset.full : '']));
+  const byName = Object.fromEntries(tests);
+  assert.ok(relClose(Number(byName['Shapiro–Wilk']), cli.normality.shapiro_wilk.p_value, 1e-9));
+  assert.ok(relClose(Number(byName['Breusch–Pagan']), cli.breusch_pagan.p_value, 1e-9));
+  assert.equal(tests.filter(([n]) => n.startsWith('Curvature: ')).length, cli.curvature.length);
+  const vif = await page.$$eval('#vif-table tbody tr', (trs) => trs.map((tr) => [tr.querySelector('th').textContent, tr.querySelectorAll('td.num')[3].dataset.full]));
+  assert.deepEqual(vif.map((v) => v[0]), cli.collinearity.terms.map((t) => t.term));
+  cli.collinearity.terms.forEach((t, i) => assert.ok(relClose(Number(vif[i][1]), t.gvif_adjusted, 1e-9), t.term));
+  const influential = await page.$$eval('#influence-table tbody tr', (trs) => trs.map((tr) => Number(tr.querySelector('th').textContent)));
+  const top = [...cli.rows].sort((a, b) => b.cooks_distance - a.cooks_distance).slice(0, 10).map((r) => r.row);
+  assert.deepEqual(influential, top, 'the ten rows of largest Cook\'s distance, numbered as in the file');
+  assert.equal(await page.textContent('#influence-table thead th:first-child'), 'File row');
+  assert.deepEqual(await page.$$eval('#checks-cautions li', (lis) => lis.map((l) => l.textContent)), cli.fit.cautions);
+
+  // Every figure drawn, on its own canvas, none blank.
+  const canvases = await page.$$eval('#plots canvas', (cs) => cs.map((c) => c.dataset.figure).sort());
+  assert.deepEqual(canvases, cliFigures, 'one canvas per figure of the check');
+  const problems = await page.$$eval('#plots .point-readout.problem', (ps) => ps.map((p) => p.textContent));
+  assert.deepEqual(problems, [], 'every figure drew');
+  const ink = await page.$$eval('#plots canvas', (cs) => cs.map((c) => {
+    const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+    let inked = 0;
+    // Drawn: opaque and not white (a canvas never drawn on is transparent).
+    for (let i = 0; i < d.length; i += 4) if (d[i + 3] > 0 && (d[i] < 245 || d[i + 1] < 245 || d[i + 2] < 245)) inked++;
+    return [c.dataset.figure, inked / (c.width * c.height)];
+  }));
+  for (const [id, share] of ink) assert.ok(share > 0.01, `${id}: ${(share * 100).toFixed(2)}% of its pixels are drawn`);
+  console.log(`  ${ink.length} figures drawn; drawn share of pixels ${ink.map(([, s]) => `${(s * 100).toFixed(1)}%`).join(', ')}`);
+  await page.locator('#checks').screenshot({ path: join(shots, '22-checks.png') });
+  await page.setViewportSize({ width: 1920, height: 1080 });
+  await page.locator('#checks').screenshot({ path: join(shots, '23-checks-1920x1080.png') });
+  const wide = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+  await page.setViewportSize({ width: 1366, height: 768 });
+  const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+  assert.ok(overflow <= 0 && wide <= 0, `no sideways scrolling (1366: ${overflow}px, 1920: ${wide}px)`);
+});
+
+test('pointing at a dot of the residual plot tells its row, one that is in the data', { timeout: 60000 }, async () => {
+  // Still on the demo's checks from the test before.
+  const cli = cliCheck(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  const rowsInData = new Set(cli.rows.map((r) => r.row));
+  const id = await page.$eval('#plots canvas[data-figure="residuals-vs-fitted"]', (c) => c.id);
+  const canvas = page.locator(`#${id}`);
+  const tip = page.locator(`.plot-stage:has(#${id}) .tip`);
+  await canvas.scrollIntoViewIfNeeded();
+  const box = await canvas.boundingBox();
+  const n = (await page.evaluate((cid) => window.plumblineTest.figurePoint(cid, 0), id)).count;
+  assert.equal(n, cli.rows.length, 'one dot per row used');
+  let onInk = 0;
+  const picks = [0, Math.floor(n / 4), Math.floor(n / 2), Math.floor((3 * n) / 4), n - 1];
+  for (const i of picks) {
+    const p = await page.evaluate(([cid, k]) => window.plumblineTest.figurePoint(cid, k), [id, i]);
+    await page.mouse.move(box.x + p.x, box.y + p.y);
+    await tip.waitFor({ state: 'visible', timeout: 5000 });
+    const text = await tip.textContent();
+    const m = /^File row (\d+)/.exec(text);
+    assert.ok(m, `the tip names a file row (${text})`);
+    const row = Number(m[1]);
+    assert.ok(rowsInData.has(row), `row ${row} is a row of the fit`);
+    // The dot under the pointer is the one drawn there: the page's idea of
+    // the plotting area matches draw.rs (the pixel there is a dot's blue).
+    const px = await page.$eval(`#${id}`, (c, q) => [...c.getContext('2d').getImageData(Math.round(q.px), Math.round(q.py), 1, 1).data], p);
+    if (px[2] > px[0] + 40) onInk++;
+    // The nearest dot is this one, or one at the same place.
+    assert.ok(row === p.row || text.includes(`File row ${row}`), `row ${row} (the hook says ${p.row})`);
+  }
+  assert.ok(onInk >= 4, `the dots are where the page thinks they are (${onInk} of ${picks.length} on a dot's colour)`);
+  assert.match(await page.locator(`.plot:has(#${id}) .point-readout`).textContent(), /File row \d+/);
+  await page.screenshot({ path: join(shots, '24-point-row.png'), clip: await page.locator(`.plot:has(#${id})`).boundingBox() });
+  // From the keyboard too.
+  await canvas.focus();
+  await page.keyboard.press('Home');
+  const first = await page.evaluate((cid) => window.plumblineTest.figurePoint(cid, 0), id);
+  assert.match(await tip.textContent(), new RegExp(`^File row ${first.row}(?!\\d)`));
+  await page.keyboard.press('ArrowRight');
+  const second = await page.evaluate((cid) => window.plumblineTest.figurePoint(cid, 1), id);
+  assert.match(await page.locator(`.plot:has(#${id}) .point-readout`).textContent(), new RegExp(`File row ${second.row}(?!\\d)`));
+  await page.keyboard.press('Escape');
+  assert.ok(await tip.isHidden());
+});
+
+test('a row chosen in the Checks can be left out of the fit, and taken back in', { timeout: 90000 }, async () => {
+  // Still on the demo's checks.
+  const excludedNow = () => page.$$eval('#excluded-checks li', (lis) => lis.map((l) => Number(/\d+/.exec(l.textContent)[0])));
+  const refit = async (action) => {
+    const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+    await afterFit(action);
+    await checksDrawn(drawn);
+  };
+  const coefMatchCli = async (exclude) => {
+    const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS, exclude });
+    const rows = await coefTableFromPage();
+    cli.coefficients.forEach((c, i) => assert.ok(relClose(fromFull(rows[i].cells[0].full), c.estimate, 1e-9), `${c.term} without rows ${exclude.join(', ')}`));
+    assert.ok((await page.textContent('#rows-line')).startsWith(`${cli.n} of 240 rows used.`));
+  };
+  assert.ok(await page.isHidden('#excluded-checks'), 'nothing left out yet');
+  // Click a dot: its row gets a button that leaves it out.
+  const id = await page.$eval('#plots canvas[data-figure="residuals-vs-fitted"]', (c) => c.id);
+  const canvas = page.locator(`#${id}`);
+  await canvas.scrollIntoViewIfNeeded();
+  const box = await canvas.boundingBox();
+  const p = await page.evaluate((cid) => window.plumblineTest.figurePoint(cid, 100), id);
+  await page.mouse.click(box.x + p.x, box.y + p.y);
+  const leave = page.locator(`.plot:has(#${id}) .point-actions button.exclude`);
+  await leave.waitFor({ timeout: 5000 });
+  const tipRow = Number(/File row (\d+)/.exec(await page.locator(`.plot:has(#${id}) .point-readout`).textContent())[1]);
+  assert.equal(await leave.textContent(), `Leave file row ${tipRow} out of the fit`);
+  await refit(() => leave.click());
+  assert.deepEqual(await excludedNow(), [tipRow]);
+  assert.match(await page.textContent('#rows-line'), new RegExp(`Left out: 1 row by you \\(file row ${tipRow}\\);`));
+  await coefMatchCli([tipRow]);
+  assert.ok(await page.isVisible('#excluded-model'), 'the Model step lists it too');
+  const n = (await page.evaluate((cid) => window.plumblineTest.figurePoint(cid, 0), id)).count;
+  assert.equal(n, 233, 'the new figures have one dot fewer');
+  // The most influential row, from its table.
+  const first = page.locator('#influence-table tbody tr').first();
+  assert.equal(await first.locator('th').textContent(), '138');
+  await refit(() => first.locator('button.exclude').click());
+  assert.deepEqual(await excludedNow(), [tipRow, 138]);
+  await coefMatchCli([tipRow, 138]);
+  assert.ok(!(await page.$$eval('#influence-table tbody th', (ths) => ths.map((t) => t.textContent))).includes('138'), 'row 138 is no longer in the fit');
+  await page.locator('#checks').screenshot({ path: join(shots, '25-rows-left-out.png'), clip: undefined });
+  // Include again, and Undo step by step.
+  await refit(() => page.locator('#excluded-checks li').filter({ hasText: `File row ${tipRow} ` }).locator('button.include').click());
+  assert.deepEqual(await excludedNow(), [138]);
+  await coefMatchCli([138]);
+  await refit(() => page.click('#excluded-checks button.undo-excluded'));
+  assert.deepEqual(await excludedNow(), [tipRow, 138]);
+  await refit(() => page.click('#excluded-checks button.undo-excluded'));
+  await refit(() => page.click('#excluded-checks button.undo-excluded'));
+  assert.deepEqual(await excludedNow(), []);
+  assert.equal(await page.textContent('#rows-line'), DEMO_ROWS_LINE, 'every row is back');
+  assert.ok(await page.isHidden('#excluded-checks') && await page.isHidden('#excluded-model'), 'nothing left out and nothing to undo: the list goes');
 });
 
 test('over the whole session, nothing was requested but the page', { timeout: 10000 }, () => {

@@ -1,12 +1,18 @@
-// UI wiring: loading a table, looking at its columns, choosing a model,
-// showing the result. No statistics here: the table, its column profile and
-// every number shown come from the wasm (`inspect` and `fit_bytes`).
-// Text from the file or the result goes into the page with textContent only.
-import { Engine, EngineError, base64ToBytes } from './engine.js';
+// UI wiring: loading a table, looking at its columns, choosing a model and
+// its terms, showing the result and its checks. No statistics here: the
+// table, its column profile and every number shown come from the wasm
+// (`inspect`, `fit_bytes`, `select_bytes`, `check_bytes`), and the figures
+// are drawn by it (`draw_figure`). Text from the file or the result goes
+// into the page with textContent only.
+import { Engine, EngineError, Painter, base64ToBytes } from './engine.js';
 
 const PREVIEW_ROWS = 10;
 const UNDO_DEPTH = 30;
 const DEMO = { response: 'energy_mwh', transform: 'log' };
+/** A fit of at most this many rows is checked at once; larger ones on request. */
+const AUTO_CHECK_ROWS = 20000;
+/** The most influential rows listed in the Checks. */
+const INFLUENTIAL_ROWS = 10;
 
 const $ = (id) => document.getElementById(id);
 const el = {
@@ -58,6 +64,56 @@ const el = {
   cautionsList: $('cautions-list'),
   fitFigures: $('fit-figures'),
   computeFigures: $('compute-figures'),
+  chooseForm: $('choose-form'),
+  candidates: $('candidates'),
+  candidatesSuggested: $('candidates-suggested'),
+  candidatesFromModel: $('candidates-from-model'),
+  candidatesUndo: $('candidates-undo'),
+  candidatesStatus: $('candidates-status'),
+  force: $('force'),
+  chooseBy: $('choose-by'),
+  searchWay: $('search-way'),
+  stability: $('stability'),
+  resamples: $('resamples'),
+  searchButton: $('search-button'),
+  stopButton: $('stop-button'),
+  searchStatus: $('search-status'),
+  searchProgress: $('search-progress'),
+  searchProgressBar: $('search-progress-bar'),
+  chooseMessage: $('choose-message'),
+  chooseResult: $('choose-result'),
+  chooseStale: $('choose-stale'),
+  recommendReason: $('recommend-reason'),
+  recommendUse: $('recommend-use'),
+  searchFacts: $('search-facts'),
+  comparisonTable: $('comparison-table'),
+  routeIntro: $('route-intro'),
+  routeSteps: $('route-steps'),
+  pathBlock: $('path-block'),
+  pathSteps: $('path-steps'),
+  pathBy: $('path-by'),
+  stabilityBlock: $('stability-block'),
+  stabilityIntro: $('stability-intro'),
+  stabilityBars: $('stability-bars'),
+  chooseNotesBlock: $('choose-notes-block'),
+  chooseNotes: $('choose-notes'),
+  chooseCautions: $('choose-cautions'),
+  checks: $('checks'),
+  checkButton: $('check-button'),
+  checkStatus: $('check-status'),
+  checksStale: $('checks-stale'),
+  checksMessage: $('checks-message'),
+  checksBody: $('checks-body'),
+  findings: $('findings'),
+  testsTable: $('tests-table'),
+  checkFigures: $('check-figures'),
+  vifTable: $('vif-table'),
+  collinearityFigures: $('collinearity-figures'),
+  influenceTable: $('influence-table'),
+  influenceHint: $('influence-hint'),
+  checksCautions: $('checks-cautions'),
+  plots: $('plots'),
+  excludedAreas: [$('excluded-model'), $('excluded-checks')],
 };
 
 /** What is loaded: kept on the main thread, whatever happens to the worker. */
@@ -71,6 +127,18 @@ const state = {
   inspectSeq: 0,
   inspectsDone: 0, // inspections answered, good or bad (for the tests)
   undo: [], // earlier texts of the terms, the last on top
+  fitRequest: null, // the request of the fit shown in the Result
+  candidateUndo: [], // earlier texts of the candidate terms
+  candidatesEdited: false, // the user changed the candidates: keep them
+  selection: null, // the SelectReport shown
+  searchSeq: 0,
+  searchesDone: 0, // searches answered, good, bad or stopped (for the tests)
+  checkSeq: 0,
+  checksDone: 0, // checks answered, good or bad (for the tests)
+  figuresDrawn: 0, // check results whose figures have all been drawn (for the tests)
+  plots: new Map(), // canvas id -> {figure, extent, area, order}
+  excluded: [], // source row numbers the user left out of the model
+  excludedUndo: [], // earlier lists of them, the last on top
 };
 
 // ---------------------------------------------------------------- messages
@@ -96,6 +164,8 @@ const engine = new Engine({
     showMessage(el.modelMessage, `${message}${tail}`);
   },
 });
+
+const painter = new Painter(engine.wasm);
 
 /** Writes a column name as the term syntax needs it (quoted unless bare). */
 function quoteName(name) {
@@ -162,11 +232,19 @@ async function loadBytes(name, bytes, { paste = false } = {}) {
   const inspection = answer.ok;
   state.data = { name, bytes, read, kinds: {}, detected: detectedKinds(inspection), inspection };
   state.undo = [];
+  state.candidateUndo = [];
+  state.candidatesEdited = false;
+  state.excluded = [];
+  state.excludedUndo = [];
+  renderExcluded();
   dropRunningFit();
   renderData();
   renderColumns();
   setColumnsStatus('');
+  setCandidatesStatus('');
   clearResult();
+  clearSelection();
+  defaultCandidates();
   clearMessage(el.modelMessage);
   return true;
 }
@@ -210,11 +288,17 @@ async function reinspect(change, focusAfter) {
   if (change.read) {
     // Another sheet or header row: other columns, so the kinds found are new.
     d.detected = detectedKinds(answer.ok);
+    // Other rows, numbered anew: what was left out no longer applies.
+    state.excluded = [];
+    state.excludedUndo = [];
+    renderExcluded();
     dropRunningFit();
     clearResult();
+    clearSelection();
     renderData();
   }
   renderColumns();
+  defaultCandidates();
   if (focusAfter) focusAfter();
   return true;
 }
@@ -254,6 +338,7 @@ async function openDemo() {
   el.level.value = '95';
   updateResponsePreview();
   renderColumns();
+  defaultCandidates();
   await runFit();
 }
 
@@ -432,14 +517,56 @@ function setColumnsStatus(text) {
   el.columnsStatus.textContent = text;
 }
 
+function setCandidatesStatus(text) {
+  el.candidatesStatus.textContent = text;
+}
+
+/**
+ * A field of terms with its own Undo: the model's terms (changed from the
+ * Columns panel and the comparison's "Use this model") and the candidates.
+ */
+const FIELDS = {
+  model: {
+    input: el.terms,
+    stack: () => state.undo,
+    undoButton: el.undoButton,
+    say: setColumnsStatus,
+    name: 'the terms',
+    changed: () => { markStale(); markChooseStale(); },
+  },
+  candidates: {
+    input: el.candidates,
+    stack: () => state.candidateUndo,
+    undoButton: el.candidatesUndo,
+    say: setCandidatesStatus,
+    name: 'the candidates',
+    changed: () => { state.candidatesEdited = true; markChooseStale(); },
+  },
+};
+
+/** Changes a field of terms, keeping the text before for its Undo. */
+function changeField(f, text, status) {
+  const stack = f.stack();
+  stack.push(f.input.value);
+  if (stack.length > UNDO_DEPTH) stack.shift();
+  f.input.value = text;
+  f.undoButton.disabled = false;
+  f.say(status);
+  f.changed();
+}
+
+function undoField(f) {
+  const stack = f.stack();
+  if (!stack.length) return;
+  f.input.value = stack.pop();
+  f.undoButton.disabled = stack.length === 0;
+  f.say(f.input.value ? `Undone: ${f.name} are back to ${f.input.value}.` : `Undone: ${f.name} are empty again.`);
+  f.changed();
+}
+
 /** Changes the terms from the Columns panel, keeping the text before for Undo. */
 function changeTerms(text, status) {
-  state.undo.push(el.terms.value);
-  if (state.undo.length > UNDO_DEPTH) state.undo.shift();
-  el.terms.value = text;
-  el.undoButton.disabled = false;
-  setColumnsStatus(status);
-  markStale();
+  changeField(FIELDS.model, text, status);
 }
 
 function addTerm(term) {
@@ -452,11 +579,7 @@ function addTerm(term) {
 }
 
 function undoTerms() {
-  if (!state.undo.length) return;
-  el.terms.value = state.undo.pop();
-  el.undoButton.disabled = state.undo.length === 0;
-  setColumnsStatus(el.terms.value ? `Undone: the terms are back to ${el.terms.value}.` : 'Undone: the terms are empty again.');
-  markStale();
+  undoField(FIELDS.model);
 }
 
 function useSuggested() {
@@ -468,6 +591,31 @@ function useSuggested() {
     return;
   }
   changeTerms(text, terms.length ? `The terms are now the suggested ones: ${text}.` : 'No column is suggested as a term, so the terms are now empty.');
+}
+
+/** The candidates start as the suggestions, until the user changes them. */
+function defaultCandidates() {
+  if (!state.data || state.candidatesEdited) return;
+  el.candidates.value = suggestedTerms(state.data.inspection.columns, el.responseColumn.value).join(', ');
+}
+
+function useSuggestedCandidates() {
+  if (!state.data) return;
+  const text = suggestedTerms(state.data.inspection.columns, el.responseColumn.value).join(', ');
+  if (text === el.candidates.value) {
+    setCandidatesStatus('The candidates are already the suggested terms.');
+    return;
+  }
+  changeField(FIELDS.candidates, text, text ? `The candidates are now the suggested terms: ${text}.` : 'No column is suggested as a term, so the candidates are now empty.');
+}
+
+function useModelCandidates() {
+  const text = splitTerms(el.terms.value).join(', ');
+  if (text === el.candidates.value) {
+    setCandidatesStatus('The candidates are already the model\'s terms.');
+    return;
+  }
+  changeField(FIELDS.candidates, text, text ? `The candidates are now the model's terms: ${text}.` : 'The model has no terms, so the candidates are now empty.');
 }
 
 function changeKind(name, kind) {
@@ -499,6 +647,7 @@ function renderColumns() {
   el.columnsEmpty.hidden = !!d;
   el.columnsBody.hidden = !d;
   el.undoButton.disabled = state.undo.length === 0;
+  el.candidatesUndo.disabled = state.candidateUndo.length === 0;
   const body = el.columnsTable.tBodies[0];
   body.textContent = '';
   if (!d) return;
@@ -603,6 +752,7 @@ function buildRequest() {
       level,
       hc3: el.hc3.checked,
       ...readRequest(state.data),
+      ...excludeRequest(),
     },
   };
 }
@@ -622,7 +772,7 @@ async function runFit() {
   clearMessage(el.dataMessage);
   el.fitButton.disabled = true;
   el.form.setAttribute('aria-busy', 'true');
-  el.fitStatus.textContent = 'Fitting…';
+  el.fitStatus.textContent = el.stopButton.hidden ? 'Fitting…' : 'Waiting for the search to end (Stop ends it), then fitting…';
   let answer;
   try {
     answer = await engine.fit(state.data.bytes, request);
@@ -632,6 +782,7 @@ async function runFit() {
     clearResult();
     // The engine has said what happened (onTrouble) unless it is another error.
     if (!(e instanceof EngineError)) showMessage(el.modelMessage, `The fit could not be run: ${e.message}`);
+    else if (e.kind === 'stopped') showMessage(el.modelMessage, 'The fit was stopped together with the search. Press Fit to run it again.');
     return;
   }
   if (seq !== state.fitSeq) return;
@@ -642,9 +793,11 @@ async function runFit() {
     return;
   }
   clearMessage(el.modelMessage);
+  state.fitRequest = request;
   renderResult(answer.ok);
   revealResult();
   finishBusy(`Fitted: ${plural(answer.ok.coefficients.length, 'coefficient')}, ${answer.ok.n} rows used.`);
+  showChecksFor(answer.ok);
 }
 
 /** Brings the result into view when its top is below the window. */
@@ -662,12 +815,18 @@ function finishBusy(status) {
 
 function clearResult() {
   state.report = null;
+  state.fitRequest = null;
   el.result.hidden = true;
   el.staleNote.hidden = true;
+  clearChecks();
 }
 
 function markStale() {
   if (state.report) el.staleNote.hidden = false;
+}
+
+function markChooseStale() {
+  if (state.selection) el.chooseStale.hidden = false;
 }
 
 // ------------------------------------------------------------ number text
@@ -765,7 +924,9 @@ function renderResult(r) {
     const parts = r.dropped.map((d) => {
       const more = d.count > d.first_rows.length ? ', …' : '';
       const where = d.first_rows.length ? ` (${rowsWord} ${d.first_rows.length === 1 ? 'row' : 'rows'} ${d.first_rows.join(', ')}${more})` : '';
-      return `${plural(d.count, 'row')} with ${d.reason.replace(/^missing value in /, 'a missing value in ')}${where}`;
+      if (/^missing value in /.test(d.reason)) return `${plural(d.count, 'row')} with ${d.reason.replace(/^missing value in /, 'a missing value in ')}${where}`;
+      if (d.reason === 'left out by you') return `${plural(d.count, 'row')} by you${where}`;
+      return `${plural(d.count, 'row')} (${d.reason})${where}`;
     });
     el.rowsLine.append(` Left out: ${parts.join('; ')}.`);
   }
@@ -870,6 +1031,800 @@ function renderFigures(r) {
   if (r.aliased.length) figure(cf, 'Not estimated (aliased)', r.aliased.join(', '));
 }
 
+// ------------------------------------------------------ choosing the terms
+
+const CRITERION_WORDS = {
+  'adj-r2': 'adjusted R²',
+  aic: 'AIC',
+  bic: 'BIC',
+  cp: "Mallows' Cp",
+  cv: 'cross-validated error',
+  'p-value': 'p-value route',
+};
+
+/** The columns of the comparison: [key, heading, significant digits, criterion]. */
+const COMPARISON_COLUMNS = [
+  ['k', 'k', null, null],
+  ['r_squared', 'R²', 4, null],
+  ['adj_r_squared', 'Adjusted R²', 4, 'adj-r2'],
+  ['aic', 'AIC', 6, 'aic'],
+  ['bic', 'BIC', 6, 'bic'],
+  ['cp', 'Cp', 5, 'cp'],
+  ['cv_rmse', 'CV RMSE', 4, 'cv'],
+];
+
+function sameTerms(a, b) {
+  if (a.length !== b.length) return false;
+  const x = [...a].sort();
+  const y = [...b].sort();
+  return x.every((t, i) => t === y[i]);
+}
+
+/** A set of terms in words: the terms, or what is left without any. */
+function termsText(terms) {
+  if (terms.length) return terms.join(', ');
+  return el.intercept.checked ? 'no terms: the intercept alone' : 'no terms';
+}
+
+/** A share 0..1 as a whole percentage (for reading; the full value is in the title). */
+function shareText(v) {
+  if (v === null || v === undefined || typeof v !== 'number') return '—';
+  return `${Math.round(v * 100)}%`;
+}
+
+function setProgress(share) {
+  const pct = Math.max(0, Math.min(100, Math.round(share * 100)));
+  el.searchProgress.setAttribute('aria-valuenow', String(pct));
+  el.searchProgress.setAttribute('aria-valuetext', `${pct}% of the subsets covered`);
+  el.searchProgressBar.style.width = `${pct}%`;
+}
+
+function setSearching(on, status) {
+  el.searchButton.disabled = on;
+  el.stopButton.hidden = !on;
+  el.chooseForm.toggleAttribute('aria-busy', on);
+  if (on) {
+    el.searchProgress.hidden = false;
+    setProgress(0);
+  }
+  el.searchStatus.textContent = status;
+}
+
+function buildSelectRequest() {
+  if (!state.data) return { problem: 'Open a file, paste cells or open the demo data first.' };
+  const response = responseTerm();
+  if (!response) return { problem: 'Choose the column to explain (the response) in the Model first.' };
+  const candidates = splitTerms(el.candidates.value);
+  if (!candidates.length) return { problem: 'Write at least one candidate term, or press Use all suggested terms.' };
+  const request = {
+    response,
+    candidates: candidates.join(', '),
+    force: el.force.value,
+    intercept: el.intercept.checked,
+    by: el.chooseBy.value,
+    search: el.searchWay.value,
+    ...readRequest(state.data),
+    ...excludeRequest(),
+  };
+  if (el.stability.checked) {
+    const text = el.resamples.value.trim();
+    const n = Number(text);
+    if (!/^\d+$/.test(text) || n < 10 || n > 5000) {
+      return { problem: `The number of resamples must be a whole number from 10 to 5000, not "${el.resamples.value}".` };
+    }
+    request.stability = n;
+  }
+  return { request };
+}
+
+async function runSearch() {
+  const { request, problem } = buildSelectRequest();
+  if (problem) {
+    showMessage(el.chooseMessage, problem);
+    return;
+  }
+  clearMessage(el.chooseMessage);
+  const seq = ++state.searchSeq;
+  const what = request.search === 'exhaustive' ? 'Searching every subset' : 'Searching step by step';
+  setSearching(true, request.stability
+    ? `${what}, then again on each of ${request.stability} resamples of the rows…`
+    : `${what}…`);
+  let answer;
+  try {
+    answer = await engine.select(state.data.bytes, request, (share) => {
+      if (seq === state.searchSeq) setProgress(share);
+    });
+  } catch (e) {
+    if (seq !== state.searchSeq) return;
+    state.searchesDone += 1;
+    el.searchProgress.hidden = true;
+    if (e instanceof EngineError && e.kind === 'stopped') {
+      const refocus = document.activeElement === el.stopButton;
+      setSearching(false, 'Stopped.');
+      // The Stop button goes away: keep the focus in the step.
+      if (refocus) el.searchButton.focus();
+      return;
+    }
+    setSearching(false, '');
+    showMessage(el.chooseMessage, `The search could not be run: ${e.message}`);
+    return;
+  }
+  if (seq !== state.searchSeq) return;
+  state.searchesDone += 1;
+  if (answer.error) {
+    el.searchProgress.hidden = true;
+    setSearching(false, '');
+    showMessage(el.chooseMessage, `The search could not be run. ${answer.error}`);
+    return;
+  }
+  setProgress(1);
+  const r = answer.ok;
+  const examined = r.models_examined ? `${plural(r.models_examined, 'model')} examined` : `search: ${r.search}`;
+  setSearching(false, `Done: ${examined}${r.stability ? `, and ${plural(r.stability.resamples, 'resample')}` : ''}.`);
+  renderSelection(r);
+}
+
+function stopSearch() {
+  if (el.stopButton.hidden) return;
+  engine.stop('Stopped.');
+}
+
+function clearSelection() {
+  state.selection = null;
+  state.searchSeq += 1;
+  el.chooseResult.hidden = true;
+  el.chooseStale.hidden = true;
+  el.searchProgress.hidden = true;
+  setSearching(false, '');
+  clearMessage(el.chooseMessage);
+}
+
+/** Puts a set of terms into the model's terms (undoable) and fits it. */
+function useTerms(terms) {
+  const text = terms.join(', ');
+  if (el.terms.value !== text) changeTerms(text, `The terms are now those of the set chosen: ${termsText(terms)}. Undo takes them back.`);
+  else setColumnsStatus('The terms are already those of this set.');
+  runFit();
+}
+
+function useButton(terms, label) {
+  const b = document.createElement('button');
+  b.type = 'button';
+  b.className = 'use';
+  b.textContent = 'Use this model';
+  b.setAttribute('aria-label', label);
+  b.addEventListener('click', () => useTerms(terms));
+  return b;
+}
+
+function stepText(step, valueWord) {
+  const verb = step.action === 'add' ? 'Added' : 'Dropped';
+  return `${verb} ${step.term} (${valueWord} = ${valueWord === 'p' ? pValueText(step.value) : shortNumber(step.value, 6)}); then: ${termsText(step.terms)}.`;
+}
+
+function addStep(list, text, title) {
+  const li = document.createElement('li');
+  li.textContent = text;
+  if (title) li.title = title;
+  list.append(li);
+}
+
+function renderSelection(r) {
+  state.selection = r;
+  el.chooseResult.hidden = false;
+  el.chooseStale.hidden = true;
+
+  el.recommendReason.textContent = r.recommended.reason;
+  el.recommendUse.onclick = () => useTerms(r.recommended.terms);
+  el.recommendUse.setAttribute('aria-label', `Use the recommended model: ${termsText(r.recommended.terms)}`);
+
+  const forced = r.forced.length ? `, always in: ${r.forced.join(', ')}` : '';
+  el.searchFacts.textContent = `${r.n} rows used; ${plural(r.candidates.length, 'candidate term')}${forced}; `
+    + `search: ${r.search}${r.models_examined ? `, ${plural(r.models_examined, 'model')} examined` : ''}; chosen by ${CRITERION_WORDS[r.by] || r.by}.`;
+
+  const heads = ['Terms', ...COMPARISON_COLUMNS.map((c) => c[1]), 'Stability', 'Best by', 'Model'];
+  const body = tableHead(el.comparisonTable, heads);
+  const headCells = el.comparisonTable.tHead.rows[0].cells;
+  COMPARISON_COLUMNS.forEach((c, j) => {
+    if (c[3] === r.by) {
+      headCells[j + 1].classList.add('chosen');
+      headCells[j + 1].title = 'The measure chosen';
+      const mark = document.createElement('span');
+      mark.className = 'chosen-mark';
+      mark.textContent = 'chosen';
+      headCells[j + 1].append(mark);
+    }
+  });
+  headCells[heads.length - 2].className = '';
+  headCells[heads.length - 1].className = '';
+  for (const c of r.comparison) {
+    const tr = body.insertRow();
+    const recommended = sameTerms(c.terms, r.recommended.terms);
+    const th = addCell(tr, 'th', '', { scope: 'row', className: 'terms-cell' });
+    if (recommended) {
+      tr.className = 'recommended';
+      const mark = document.createElement('strong');
+      mark.className = 'rec-mark';
+      mark.textContent = 'Recommended';
+      th.append(mark, ' ');
+    }
+    th.append(termsText(c.terms));
+    for (const [key, label, sig, crit] of COMPARISON_COLUMNS) {
+      const td = sig === null ? addCell(tr, 'td', String(c[key]), { className: 'num' }) : numberCell(tr, c[key], sig, label);
+      if (crit === r.by) td.classList.add('chosen');
+    }
+    const st = addCell(tr, 'td', shareText(c.stability), { className: 'num' });
+    st.title = c.stability === null ? 'Stability: not checked (tick How stable?)' : `Stability: chosen in ${full(c.stability)} of the resamples`;
+    addCell(tr, 'td', c.wins.map((w) => CRITERION_WORDS[w] || w).join(', '), { className: 'wins' });
+    const act = tr.insertCell();
+    act.className = 'actions';
+    act.append(useButton(c.terms, `Use this model: ${termsText(c.terms)}`));
+  }
+
+  const route = r.p_value_route;
+  el.routeIntro.textContent = `From all the candidates, the term with the largest p-value is dropped, one at a time, while that p-value is above ${route.alpha}. Shown for comparison: the p-values of the terms it keeps are too optimistic, as the same data chose them.`;
+  el.routeSteps.textContent = '';
+  for (const step of route.path) addStep(el.routeSteps, stepText(step, 'p'), `p-value ${full(step.value)}`);
+  if (!route.path.length) addStep(el.routeSteps, `Nothing was dropped: every term had a p-value of at most ${route.alpha}.`);
+  addStep(el.routeSteps, `It ends with: ${termsText(route.terms)}.`);
+
+  el.pathSteps.textContent = '';
+  const word = r.by === 'aic' ? 'AIC' : 'BIC';
+  for (const step of r.path) addStep(el.pathSteps, stepText(step, word), `${word} ${full(step.value)}`);
+  el.pathBlock.hidden = r.path.length === 0;
+  el.pathBy.textContent = `(${r.search}, by ${word})`;
+
+  const st = r.stability;
+  el.stabilityBlock.hidden = !st;
+  el.stabilityBars.textContent = '';
+  if (st) {
+    el.stabilityIntro.textContent = `How often each term was chosen when the search was repeated on ${st.resamples} resamples of the rows (seed ${st.seed}). `
+      + `The recommended set itself was chosen in ${shareText(st.winner_share)} of them.`;
+    for (const t of st.terms) {
+      const li = document.createElement('li');
+      const name = document.createElement('span');
+      name.className = 'bar-term';
+      name.textContent = t.term;
+      const track = document.createElement('span');
+      track.className = 'bar-track';
+      track.setAttribute('aria-hidden', 'true');
+      const fill = document.createElement('span');
+      fill.className = 'bar-fill';
+      fill.style.width = `${Math.max(0, Math.min(100, (typeof t.share === 'number' ? t.share : 0) * 100))}%`;
+      track.append(fill);
+      const pct = document.createElement('span');
+      pct.className = 'bar-pct';
+      pct.textContent = shareText(t.share);
+      li.title = `${t.term}: chosen in ${full(t.share)} of the resamples`;
+      li.append(name, track, pct);
+      el.stabilityBars.append(li);
+    }
+  }
+
+  el.chooseNotes.textContent = '';
+  for (const n of r.notes) addItem(el.chooseNotes, n);
+  el.chooseNotesBlock.hidden = r.notes.length === 0;
+  el.chooseCautions.textContent = '';
+  for (const c of r.cautions) addItem(el.chooseCautions, c);
+}
+
+
+// ------------------------------------------------------ rows left out
+
+/** The rows left out, as fit, check and select requests take them. */
+function excludeRequest() {
+  return state.excluded.length ? { exclude_rows: [...state.excluded] } : {};
+}
+
+/** Changes the rows left out (undoable) and fits again. */
+function changeExcluded(rows, status) {
+  state.excludedUndo.push([...state.excluded]);
+  if (state.excludedUndo.length > UNDO_DEPTH) state.excludedUndo.shift();
+  state.excluded = rows;
+  afterExcludedChange(status);
+}
+
+function afterExcludedChange(status) {
+  renderExcluded();
+  el.checkStatus.textContent = status;
+  markChooseStale();
+  if (state.fitRequest || state.report) runFit();
+  else markStale();
+}
+
+function excludeRow(row) {
+  if (state.excluded.includes(row)) return;
+  changeExcluded([...state.excluded, row], `${rowWord()} ${row} is left out; fitting again…`);
+}
+
+function includeRow(row) {
+  changeExcluded(state.excluded.filter((r) => r !== row), `${rowWord()} ${row} is back in; fitting again…`);
+}
+
+function undoExcluded() {
+  if (!state.excludedUndo.length) return;
+  state.excluded = state.excludedUndo.pop();
+  afterExcludedChange(`Undone: ${state.excluded.length ? `left out now: ${state.excluded.join(', ')}` : 'no row is left out now'}; fitting again…`);
+}
+
+/** The list of rows left out, in the Model and the Checks alike. */
+function renderExcluded() {
+  for (const area of el.excludedAreas) {
+    area.textContent = '';
+    area.hidden = state.excluded.length === 0 && state.excludedUndo.length === 0;
+    if (area.hidden) continue;
+    const label = document.createElement('span');
+    label.className = 'hint-title';
+    label.textContent = state.excluded.length ? 'Rows left out by you:' : 'No row is left out by you.';
+    area.append(label);
+    const list = document.createElement('ul');
+    list.className = 'excluded-list';
+    for (const row of state.excluded) {
+      const li = document.createElement('li');
+      li.append(`${rowWord()} ${row} `);
+      const b = document.createElement('button');
+      b.type = 'button';
+      b.className = 'include';
+      b.textContent = 'Include again';
+      b.setAttribute('aria-label', `Include ${rowWord().toLowerCase()} ${row} again`);
+      b.addEventListener('click', () => includeRow(row));
+      li.append(b);
+      list.append(li);
+    }
+    area.append(list);
+    const undo = document.createElement('button');
+    undo.type = 'button';
+    undo.className = 'undo-excluded';
+    undo.textContent = 'Undo';
+    undo.setAttribute('aria-label', 'Undo the last change to the rows left out');
+    undo.disabled = state.excludedUndo.length === 0;
+    undo.addEventListener('click', undoExcluded);
+    area.append(undo);
+    if (state.excluded.length > 1) {
+      const all = document.createElement('button');
+      all.type = 'button';
+      all.className = 'include-all';
+      all.textContent = 'Include all again';
+      all.addEventListener('click', () => changeExcluded([], 'Every row is back in; fitting again…'));
+      area.append(' ', all);
+    }
+  }
+}
+
+/** A button that leaves a row out of the fit. */
+function excludeButton(row, text = 'Leave out') {
+  const b = document.createElement('button');
+  b.type = 'button';
+  b.className = 'exclude';
+  b.textContent = text;
+  b.setAttribute('aria-label', `Leave ${rowWord().toLowerCase()} ${row} out of the fit`);
+  b.addEventListener('click', () => {
+    excludeRow(row);
+    // This button goes when the checks are drawn again: the focus goes to
+    // the list of rows left out, whose Undo takes the row back.
+    const undo = el.excludedAreas[1].querySelector('.undo-excluded');
+    if (undo) undo.focus();
+  });
+  return b;
+}
+
+// ---------------------------------------------------------------- checks
+
+const SEVERITY_WORDS = { 3: 'Act on it', 2: 'Look at it', 1: 'Worth knowing', 0: 'Nothing found' };
+
+/** The row numbers' name, as the preview's first column says it. */
+function rowWord() {
+  const format = state.data && state.data.inspection.load.format;
+  return { workbook: 'Sheet row', paste: 'Pasted row' }[format] || 'File row';
+}
+
+function clearChecks() {
+  state.checkSeq += 1;
+  el.checks.hidden = true;
+  el.checksBody.hidden = true;
+  el.checksStale.hidden = true;
+  el.checkButton.disabled = false;
+  el.checkStatus.textContent = '';
+  clearMessage(el.checksMessage);
+  el.plots.textContent = '';
+  state.plots.clear();
+}
+
+/** After a fit: the Checks step for it, run at once when the data are not large. */
+function showChecksFor(report) {
+  el.checks.hidden = false;
+  if (!el.checksBody.hidden) el.checksStale.hidden = false;
+  if (report.n <= AUTO_CHECK_ROWS) {
+    runCheck();
+  } else {
+    el.checkStatus.textContent = `${report.n} rows: press Check this model to run the checks (they take a while on this many rows).`;
+  }
+}
+
+async function runCheck() {
+  if (!state.data || !state.fitRequest) return;
+  const seq = ++state.checkSeq;
+  const request = state.fitRequest;
+  clearMessage(el.checksMessage);
+  el.checkButton.disabled = true;
+  el.checks.setAttribute('aria-busy', 'true');
+  el.checkStatus.textContent = 'Checking…';
+  let answer;
+  try {
+    answer = await engine.check(state.data.bytes, request);
+  } catch (e) {
+    if (seq !== state.checkSeq) return;
+    state.checksDone += 1;
+    finishCheck('');
+    showMessage(el.checksMessage, e instanceof EngineError && e.kind === 'stopped'
+      ? 'The checks were stopped together with the search. Press Check this model to run them again.'
+      : `The checks could not be run: ${e.message}`);
+    return;
+  }
+  if (seq !== state.checkSeq) return;
+  state.checksDone += 1;
+  if (answer.error) {
+    finishCheck('');
+    showMessage(el.checksMessage, `The checks could not be run. ${answer.error}`);
+    return;
+  }
+  el.checksStale.hidden = true;
+  renderChecks(answer.ok.check);
+  finishCheck(`Checked: ${plural(answer.ok.check.findings.filter((f) => f.severity > 0).length, 'finding')}, ${plural(answer.ok.figures.length, 'figure')}.`);
+  await renderPlots(answer.ok.figures, seq);
+}
+
+function finishCheck(status) {
+  el.checkButton.disabled = false;
+  el.checks.removeAttribute('aria-busy');
+  el.checkStatus.textContent = status;
+}
+
+function testRow(body, name, asks, statistic, df, p, { title, statLabel = 'statistic' } = {}) {
+  const tr = body.insertRow();
+  const th = addCell(tr, 'th', name, { scope: 'row' });
+  if (title) th.title = title;
+  addCell(tr, 'td', asks, { className: 'asks' });
+  numberCell(tr, statistic, 5, statLabel);
+  addCell(tr, 'td', df, { className: 'num' });
+  numberCell(tr, p, 'p', 'p-value');
+}
+
+function notRun(body, name, asks, why) {
+  const tr = body.insertRow();
+  addCell(tr, 'th', name, { scope: 'row' });
+  addCell(tr, 'td', asks, { className: 'asks' });
+  const td = addCell(tr, 'td', why, { className: 'aliased' });
+  td.colSpan = 3;
+}
+
+function renderChecks(c) {
+  el.checksBody.hidden = false;
+
+  el.findings.textContent = '';
+  const ranked = c.findings.map((f, i) => [f, i]).sort((a, b) => b[0].severity - a[0].severity || a[1] - b[1]).map((x) => x[0]);
+  for (const f of ranked) {
+    const li = document.createElement('li');
+    li.className = `finding sev-${f.severity}`;
+    const sev = document.createElement('strong');
+    sev.className = 'sev';
+    sev.textContent = SEVERITY_WORDS[f.severity] || `Severity ${f.severity}`;
+    const text = document.createElement('span');
+    text.className = 'finding-text';
+    text.textContent = f.text;
+    li.append(sev, ' ', text);
+    if (f.rule) {
+      const rule = document.createElement('span');
+      rule.className = 'rule';
+      rule.textContent = ` Rule: ${f.rule}.`;
+      li.append(rule);
+    }
+    el.findings.append(li);
+  }
+
+  const body = tableHead(el.testsTable, ['Test', 'What it asks', 'Statistic', 'df', 'p-value']);
+  el.testsTable.tHead.rows[0].cells[1].className = '';
+  const nm = c.normality;
+  const normalAsk = 'Could the residuals come from a normal distribution?';
+  if (nm.shapiro_wilk) testRow(body, 'Shapiro–Wilk', normalAsk, nm.shapiro_wilk.statistic, '', nm.shapiro_wilk.p_value, { statLabel: 'W' });
+  else notRun(body, 'Shapiro–Wilk', normalAsk, 'not computed for these data');
+  if (nm.anderson_darling) {
+    testRow(body, 'Anderson–Darling', normalAsk, nm.anderson_darling.statistic, '', nm.anderson_darling.p_value,
+      { statLabel: 'A²', title: `adjusted A² ${full(nm.anderson_darling.adjusted)}` });
+  } else notRun(body, 'Anderson–Darling', normalAsk, 'not computed for these data');
+  if (nm.jarque_bera) testRow(body, 'Jarque–Bera', 'Are the skewness and tails of the residuals those of a normal distribution?', nm.jarque_bera.statistic, '2', nm.jarque_bera.p_value);
+  const spreadAsk = 'Does the spread of the residuals change with the terms?';
+  if (c.breusch_pagan) testRow(body, 'Breusch–Pagan', spreadAsk, c.breusch_pagan.statistic, String(c.breusch_pagan.df), c.breusch_pagan.p_value);
+  else notRun(body, 'Breusch–Pagan', spreadAsk, 'not computed for this model');
+  const orderAsk = 'Are neighbouring residuals, in the order of the rows, related?';
+  if (c.durbin_watson) {
+    testRow(body, 'Durbin–Watson', orderAsk, c.durbin_watson.statistic, '', c.durbin_watson.p_value,
+      { statLabel: 'd', title: `${c.durbin_watson.method}; d would be about ${full(c.durbin_watson.mean_under_independence)} without any relation` });
+  } else notRun(body, 'Durbin–Watson', orderAsk, 'not computed for this model');
+  const resetAsk = 'Do powers of the fitted values add to the model (a missing curve or interaction)?';
+  if (c.reset) testRow(body, 'RESET', resetAsk, c.reset.statistic, `${c.reset.df1}, ${c.reset.df2}`, c.reset.p_value, { statLabel: 'F' });
+  else notRun(body, 'RESET', resetAsk, 'not computed for this model');
+  for (const cv of c.curvature) {
+    testRow(body, `Curvature: ${cv.term}`, `Does ${cv.term} need a curve (its square added)?`, cv.t, '', cv.p_value, { statLabel: 't' });
+  }
+
+  el.checkFigures.textContent = '';
+  numFigure(el.checkFigures, 'PRESS', c.press, 6, '(sum of the squared errors when each row is predicted without it)');
+
+  const vb = tableHead(el.vifTable, ['Term', 'df', 'VIF', 'GVIF', 'GVIF^(1/(2·df))']);
+  for (const t of c.collinearity.terms) {
+    const tr = vb.insertRow();
+    addCell(tr, 'th', t.term, { scope: 'row' });
+    addCell(tr, 'td', String(t.df), { className: 'num' });
+    numberCell(tr, t.vif, 4, 'VIF');
+    numberCell(tr, t.gvif, 4, 'GVIF');
+    numberCell(tr, t.gvif_adjusted, 4, 'GVIF^(1/(2·df))');
+  }
+  if (!c.collinearity.terms.length) {
+    const tr = vb.insertRow();
+    const td = addCell(tr, 'td', 'No terms to compare.', { className: 'aliased' });
+    td.colSpan = 5;
+  }
+  el.collinearityFigures.textContent = '';
+  numFigure(el.collinearityFigures, 'Condition number', c.collinearity.condition_number, 4, '(of the design with scaled columns)');
+  numFigure(el.collinearityFigures, 'Without the intercept', c.collinearity.condition_number_predictors, 4);
+
+  const word = rowWord();
+  const ib = tableHead(el.influenceTable, [word, "Cook's distance", 'Leverage', 'Studentized residual', 'Residual', 'Fitted', 'DFFITS', 'The fit']);
+  el.influenceTable.tHead.rows[0].cells[7].className = '';
+  const top = c.rows.filter((x) => typeof x.cooks_distance === 'number')
+    .sort((a, b) => b.cooks_distance - a.cooks_distance).slice(0, INFLUENTIAL_ROWS);
+  for (const x of top) {
+    const tr = ib.insertRow();
+    addCell(tr, 'th', String(x.row), { scope: 'row', className: 'rownum' });
+    numberCell(tr, x.cooks_distance, 3, "Cook's distance");
+    numberCell(tr, x.leverage, 3, 'Leverage');
+    numberCell(tr, x.studentized, 3, 'Studentized residual');
+    numberCell(tr, x.residual, 4, 'Residual');
+    numberCell(tr, x.fitted, 5, 'Fitted');
+    numberCell(tr, x.dffits, 3, 'DFFITS');
+    const act = tr.insertCell();
+    act.className = 'actions';
+    act.append(excludeButton(x.row));
+  }
+  el.influenceHint.textContent = `The ${Math.min(INFLUENTIAL_ROWS, top.length)} rows with the largest Cook's distance, of ${c.rows.length}; ${word.toLowerCase()}s are numbered as the Data preview numbers them.`;
+
+  el.checksCautions.textContent = '';
+  for (const x of c.fit.cautions) addItem(el.checksCautions, x);
+}
+
+// ----------------------------------------------------------------- figures
+
+// Where a figure's points land on its canvas. This mirrors how
+// src/plot/draw.rs lays out a chart with plotters 0.3.7, and must change
+// with it:
+//   - the data range is `extent()`: the x and y ranges of every point set
+//     and every line (contour lines count for x only), each padded by 5% of
+//     its width on both sides (5% of max(|value|, 1) when the width is 0);
+//   - `.margin(14)` on every side, then the caption: plotters' web font code
+//     measures the title as an inline-block span of 22 px sans-serif on the
+//     page, height h, and takes h + 2·min(floor(h/2), 5) pixels from the top;
+//   - `.x_label_area_size(46)` at the bottom and `.y_label_area_size(64)` at
+//     the left; the plotting area is what is left.
+// Heatmaps and histograms have no points, and get no pointing.
+const CHART = { margin: 14, captionSize: 22, xLabelArea: 46, yLabelArea: 64 };
+const POINT_RADIUS_PX = 12; // how near (canvas pixels) the pointer must be
+
+function paddedRange(values) {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (const v of values) {
+    if (Number.isFinite(v)) {
+      if (v < lo) lo = v;
+      if (v > hi) hi = v;
+    }
+  }
+  if (!(Number.isFinite(lo) && Number.isFinite(hi))) return [0, 1];
+  const pad = hi > lo ? (hi - lo) * 0.05 : Math.max(Math.abs(lo), 1) * 0.05;
+  return [lo - pad, hi + pad];
+}
+
+function figureExtent(fig) {
+  const xs = [];
+  const ys = [];
+  const add = (to, values) => { for (const v of values) to.push(v); };
+  for (const p of fig.points) { add(xs, p.x); add(ys, p.y); }
+  for (const l of fig.lines) {
+    add(xs, l.x);
+    if (l.role !== 'contour') add(ys, l.y);
+  }
+  if (fig.bars) {
+    add(xs, fig.bars.edges);
+    ys.push(0, fig.bars.counts.length ? fig.bars.counts.reduce((a, b) => Math.max(a, b)) : 1);
+  }
+  return { x: paddedRange(xs), y: paddedRange(ys) };
+}
+
+/** The caption's height as plotters measures it on this page. */
+function captionHeight(title) {
+  const span = document.createElement('span');
+  span.textContent = title;
+  span.setAttribute('style', `display: inline-block; font-family:sans-serif; font-style:normal; font-size: ${CHART.captionSize}px; position: fixed; top: 100%`);
+  document.body.append(span);
+  const h = span.offsetHeight;
+  span.remove();
+  return h + 2 * Math.min(Math.floor(h / 2), 5);
+}
+
+function plotArea(canvas, fig) {
+  const top = CHART.margin + captionHeight(fig.title);
+  return {
+    left: CHART.margin + CHART.yLabelArea,
+    right: canvas.width - CHART.margin,
+    top,
+    bottom: canvas.height - CHART.margin - CHART.xLabelArea,
+  };
+}
+
+/** A point's place on the canvas, in canvas pixels. */
+function toPixel(plot, x, y) {
+  const { extent: e, area: a } = plot;
+  return {
+    px: a.left + ((x - e.x[0]) / (e.x[1] - e.x[0])) * (a.right - a.left),
+    py: a.bottom - ((y - e.y[0]) / (e.y[1] - e.y[0])) * (a.bottom - a.top),
+  };
+}
+
+/** Every point of a figure in canvas pixels, ordered by x (for the arrow keys). */
+function plotPoints(plot) {
+  const out = [];
+  for (const set of plot.figure.points) {
+    for (let i = 0; i < set.x.length; i++) {
+      out.push({ x: set.x[i], y: set.y[i], row: set.rows[i], ...toPixel(plot, set.x[i], set.y[i]) });
+    }
+  }
+  return out.sort((a, b) => a.px - b.px || a.py - b.py);
+}
+
+function nearestPoint(plot, px, py) {
+  let best = null;
+  let bestD = POINT_RADIUS_PX * POINT_RADIUS_PX;
+  for (const p of plot.order) {
+    const d = (p.px - px) ** 2 + (p.py - py) ** 2;
+    if (d <= bestD) { best = p; bestD = d; }
+  }
+  return best;
+}
+
+function hidePoint(plot) {
+  plot.tip.hidden = true;
+  plot.ring.hidden = true;
+}
+
+/** Shows a point's row; a point chosen (clicked or by the keys) also gets a button to leave it out. */
+function showPoint(plot, point, chosen = false) {
+  const { canvas, tip, ring, readout, figure } = plot;
+  if (!point) {
+    hidePoint(plot);
+    return;
+  }
+  if (chosen) {
+    plot.actions.textContent = '';
+    plot.actions.append(excludeButton(point.row, `Leave ${rowWord().toLowerCase()} ${point.row} out of the fit`));
+  }
+  const text = `${rowWord()} ${point.row}`;
+  const detail = `${figure.x_label || 'x'} ${shortNumber(point.x, 4)}, ${figure.y_label || 'y'} ${shortNumber(point.y, 4)}`;
+  tip.textContent = '';
+  const strong = document.createElement('strong');
+  strong.textContent = text;
+  tip.append(strong, document.createElement('br'), detail);
+  readout.textContent = `${figure.title}: ${text} (${detail}).`;
+  // Place the tip next to the point, in CSS pixels of the shown canvas.
+  const scale = canvas.clientWidth / canvas.width;
+  tip.hidden = false;
+  const x = point.px * scale;
+  const y = point.py * scale;
+  ring.hidden = false;
+  ring.style.left = `${x}px`;
+  ring.style.top = `${y}px`;
+  const w = tip.offsetWidth;
+  tip.style.left = `${Math.max(0, Math.min(canvas.clientWidth - w, x + 12 > canvas.clientWidth - w ? x - w - 12 : x + 12))}px`;
+  tip.style.top = `${Math.max(0, y - tip.offsetHeight - 8)}px`;
+}
+
+function pointerAt(plot, event) {
+  const rect = plot.canvas.getBoundingClientRect();
+  const px = ((event.clientX - rect.left) * plot.canvas.width) / rect.width;
+  const py = ((event.clientY - rect.top) * plot.canvas.height) / rect.height;
+  return nearestPoint(plot, px, py);
+}
+
+function wirePointing(plot) {
+  const { canvas } = plot;
+  canvas.addEventListener('mousemove', (e) => {
+    const p = pointerAt(plot, e);
+    if (p) showPoint(plot, p);
+    else if (!plot.pinned) hidePoint(plot);
+  });
+  canvas.addEventListener('mouseleave', () => { if (!plot.pinned) hidePoint(plot); });
+  canvas.addEventListener('click', (e) => {
+    const p = pointerAt(plot, e);
+    plot.pinned = !!p;
+    showPoint(plot, p, true);
+  });
+  canvas.addEventListener('keydown', (e) => {
+    const n = plot.order.length;
+    if (!n) return;
+    let i = plot.keyIndex;
+    if (e.key === 'ArrowRight' || e.key === 'ArrowDown') i = i === null ? 0 : Math.min(n - 1, i + 1);
+    else if (e.key === 'ArrowLeft' || e.key === 'ArrowUp') i = i === null ? 0 : Math.max(0, i - 1);
+    else if (e.key === 'Home') i = 0;
+    else if (e.key === 'End') i = n - 1;
+    else if (e.key === 'Escape') { hidePoint(plot); plot.pinned = false; return; }
+    else return;
+    e.preventDefault();
+    plot.keyIndex = i;
+    plot.pinned = true;
+    showPoint(plot, plot.order[i], true);
+  });
+  // The tip goes with the focus; the row and its button stay below the figure.
+  canvas.addEventListener('blur', () => { hidePoint(plot); plot.pinned = false; });
+}
+
+async function renderPlots(figures, seq) {
+  el.plots.textContent = '';
+  state.plots.clear();
+  const made = figures.map((fig, i) => {
+    const box = document.createElement('figure');
+    box.className = 'plot';
+    const stage = document.createElement('div');
+    stage.className = 'plot-stage';
+    const canvas = document.createElement('canvas');
+    canvas.id = `figure-${i + 1}-${String(fig.id).replace(/[^A-Za-z0-9-]/g, '_')}`;
+    // A correlation matrix needs room for its labels on two sides.
+    canvas.width = fig.heatmap ? 900 : 640;
+    canvas.height = fig.heatmap ? 720 : 440;
+    if (fig.heatmap) box.classList.add('wide');
+    canvas.dataset.figure = fig.id;
+    const pointable = fig.points.some((p) => p.x.length > 0);
+    canvas.setAttribute('role', 'img');
+    const axes = fig.x_label && fig.y_label ? `: ${fig.y_label} against ${fig.x_label}` : '';
+    canvas.setAttribute('aria-label', `${fig.title}${axes}.${pointable ? ' Arrow keys step through its dots and tell their rows.' : ''}`);
+    if (pointable) canvas.tabIndex = 0;
+    const tip = document.createElement('div');
+    tip.className = 'tip';
+    tip.hidden = true;
+    tip.setAttribute('aria-hidden', 'true');
+    const ring = document.createElement('div');
+    ring.className = 'ring';
+    ring.hidden = true;
+    ring.setAttribute('aria-hidden', 'true');
+    stage.append(canvas, ring, tip);
+    const below = document.createElement('div');
+    below.className = 'point-below';
+    const readout = document.createElement('p');
+    readout.className = 'point-readout';
+    readout.setAttribute('aria-live', 'polite');
+    const actions = document.createElement('span');
+    actions.className = 'point-actions';
+    below.append(readout, actions);
+    box.append(stage, below);
+    el.plots.append(box);
+    return { fig, canvas, tip, ring, readout, actions, pointable };
+  });
+  for (const m of made) {
+    const problem = await painter.draw(m.canvas.id, m.fig);
+    if (seq !== state.checkSeq) return;
+    if (problem) {
+      m.readout.textContent = problem;
+      m.readout.classList.add('problem');
+      continue;
+    }
+    if (!m.pointable) continue;
+    const plot = { figure: m.fig, canvas: m.canvas, tip: m.tip, ring: m.ring, readout: m.readout, actions: m.actions, extent: figureExtent(m.fig), pinned: false, keyIndex: null };
+    plot.area = plotArea(m.canvas, m.fig);
+    plot.order = plotPoints(plot);
+    state.plots.set(m.canvas.id, plot);
+    wirePointing(plot);
+  }
+  state.figuresDrawn += 1;
+}
+
 // ------------------------------------------------------------------ copy
 
 function tableAsText(r) {
@@ -953,11 +1908,32 @@ el.terms.addEventListener('keydown', (e) => {
 for (const c of [el.responseColumn, el.responseTransform]) {
   c.addEventListener('change', () => { updateResponsePreview(); markStale(); });
 }
-el.responseColumn.addEventListener('change', () => { if (state.data) renderColumns(); });
+el.responseColumn.addEventListener('change', () => { if (state.data) { renderColumns(); defaultCandidates(); } });
+for (const c of [el.responseColumn, el.responseTransform, el.intercept]) c.addEventListener('change', markChooseStale);
 for (const c of [el.terms, el.intercept, el.level, el.hc3]) {
   c.addEventListener('input', markStale);
   c.addEventListener('change', markStale);
 }
+el.candidates.addEventListener('input', () => { state.candidatesEdited = true; markChooseStale(); });
+for (const c of [el.force, el.chooseBy, el.searchWay, el.stability, el.resamples]) {
+  c.addEventListener('input', markChooseStale);
+  c.addEventListener('change', markChooseStale);
+}
+el.candidatesSuggested.addEventListener('click', useSuggestedCandidates);
+el.candidatesFromModel.addEventListener('click', useModelCandidates);
+el.candidatesUndo.addEventListener('click', () => undoField(FIELDS.candidates));
+el.chooseForm.addEventListener('submit', (e) => {
+  e.preventDefault();
+  if (!el.searchButton.disabled) runSearch();
+});
+el.candidates.addEventListener('keydown', (e) => {
+  if (e.key === 'Enter' && !e.shiftKey && !e.isComposing) {
+    e.preventDefault();
+    el.chooseForm.requestSubmit();
+  }
+});
+el.stopButton.addEventListener('click', stopSearch);
+el.checkButton.addEventListener('click', () => { runCheck(); });
 
 // Drop a file anywhere on the page.
 let dragDepth = 0;
@@ -1013,6 +1989,29 @@ window.plumblineTest = {
   },
   copiedText() {
     return state.report ? tableAsText(state.report) : null;
+  },
+  /** How many searches started from the page have ended (answered or stopped). */
+  searchesDone() {
+    return state.searchesDone;
+  },
+  /** How many checks started from the page have been answered. */
+  checksDone() {
+    return state.checksDone;
+  },
+  /** How many checks have had all their figures drawn. */
+  figuresDrawn() {
+    return state.figuresDrawn;
+  },
+  /**
+   * Where the page thinks point i (in x order) of a figure is: CSS pixels
+   * from the canvas's top left, canvas pixels, and its row; null if none.
+   */
+  figurePoint(canvasId, i) {
+    const plot = state.plots.get(canvasId);
+    if (!plot || !plot.order[i]) return null;
+    const p = plot.order[i];
+    const scale = plot.canvas.clientWidth / plot.canvas.width;
+    return { x: p.px * scale, y: p.py * scale, px: p.px, py: p.py, row: p.row, count: plot.order.length };
   },
 };
 

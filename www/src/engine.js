@@ -1,8 +1,18 @@
-// The one module that talks to the worker. It starts the worker from its
-// data: URL, hands it the wasm bytes, sends inspect and fit requests and
-// matches the answers to them. When the worker dies or reports a panic, it rejects what
-// was waiting, says so through `onTrouble`, and starts a fresh worker; the
-// data stay with the caller on the main thread.
+// The one module that talks to the wasm. It starts the worker from its
+// data: URL, hands it the wasm bytes, sends inspect, fit, check and select
+// requests and matches the answers (and a search's progress) to them. When
+// the worker dies or reports a panic, it rejects what was waiting, says so
+// through `onTrouble`, and starts a fresh worker; `stop()` does the same on
+// purpose, to end a long search. The data stay with the caller on the main
+// thread.
+//
+// The Painter is the one exception to "the worker computes": drawing on a
+// canvas touches the DOM, so a second instance of the same wasm runs on the
+// main thread, only to draw figures that the worker has computed.
+//
+// The build (www/tools/inline.mjs) replaces the import below with the
+// wasm-bindgen glue, wrapped so that its names stay its own.
+import * as drawingGlue from './plumbline.js';
 
 const MAX_QUICK_RESTARTS = 4;
 
@@ -85,6 +95,10 @@ export class Engine {
       return;
     }
     const job = this.pending.get(msg.id);
+    if (msg.type === 'progress') {
+      if (job && job.onProgress) job.onProgress(msg.share);
+      return;
+    }
     if (msg.type === 'panic') {
       if (job) {
         this.pending.delete(msg.id);
@@ -96,6 +110,7 @@ export class Engine {
     if (msg.type === 'result' && job) {
       this.pending.delete(msg.id);
       this.quickRestarts = 0;
+      if (job.onProgress) job.onProgress(1);
       let parsed;
       try {
         parsed = JSON.parse(msg.json);
@@ -121,6 +136,19 @@ export class Engine {
     this.start();
   }
 
+  /**
+   * Ends the worker on purpose (a search the user stopped): what waited is
+   * rejected with an EngineError of kind 'stopped', and a fresh worker is
+   * started at once. Not reported through `onTrouble`.
+   */
+  stop(message = 'Stopped.') {
+    if (this.broken) return;
+    this.rejectAll(new EngineError(message, 'stopped'));
+    if (this.worker) this.worker.terminate();
+    this.worker = null;
+    this.start();
+  }
+
   fail(message) {
     this.broken = message;
     this.rejectAll(new EngineError(message, 'broken'));
@@ -136,13 +164,13 @@ export class Engine {
     for (const job of jobs) job.reject(error);
   }
 
-  send(payload) {
+  send(payload, onProgress = null) {
     if (this.broken || !this.worker) {
       return Promise.reject(new EngineError(this.broken || 'The calculation part of the page is not running.', 'broken'));
     }
     const id = this.nextId++;
     return new Promise((resolve, reject) => {
-      this.pending.set(id, { resolve, reject });
+      this.pending.set(id, { resolve, reject, onProgress });
       this.worker.postMessage({ ...payload, id });
     });
   }
@@ -171,6 +199,31 @@ export class Engine {
     return this.send({ type: 'inspect', bytes, request: text });
   }
 
+  /**
+   * Fits a model and runs every check on it. Resolves with the parsed
+   * `{ok: {check, figures}}` or `{error, kind}`; rejects as `fit` does.
+   * @param {Uint8Array} bytes  the file's bytes (copied to the worker)
+   * @param {object|string} request  a fit request, or its JSON text
+   */
+  check(bytes, request) {
+    const text = typeof request === 'string' ? request : JSON.stringify(request);
+    return this.send({ type: 'check', bytes, request: text });
+  }
+
+  /**
+   * Searches for the terms. Resolves with the parsed `{ok: SelectReport}` or
+   * `{error, kind}`; rejects as `fit` does, and with kind 'stopped' after
+   * `stop()`.
+   * @param {Uint8Array} bytes  the file's bytes (copied to the worker)
+   * @param {object|string} request  the selection request, or its JSON text
+   * @param {(share: number) => void} [onProgress]  the part of the subsets
+   *   covered, 0..1, now and then while it runs, and 1 at the end
+   */
+  select(bytes, request, onProgress) {
+    const text = typeof request === 'string' ? request : JSON.stringify(request);
+    return this.send({ type: 'select', bytes, request: text }, onProgress || null);
+  }
+
   /** Test hook: the worker answers as if the wasm had panicked. */
   pretendPanicForTest() {
     return this.send({ type: 'pretend-panic' });
@@ -179,5 +232,62 @@ export class Engine {
   /** Test hook: makes the worker throw, as a crash would. */
   crashForTest() {
     if (this.worker) this.worker.postMessage({ type: 'die', id: 0 });
+  }
+}
+
+/**
+ * Draws figures on canvases with a main-thread instance of the wasm
+ * (`draw_figure`). It is started on first use; `draw` resolves with '' or
+ * the problem in plain words, and never rejects.
+ */
+export class Painter {
+  /** @param {Uint8Array} wasm  the same wasm bytes the worker runs */
+  constructor(wasm) {
+    this.wasm = wasm;
+    this.ready = null;
+    this.broken = null;
+  }
+
+  start() {
+    if (!this.ready) {
+      this.ready = this.instantiate().then(() => true, (e) => {
+        this.broken = `The figures cannot be drawn in this browser: ${e && e.message ? e.message : e}`;
+        return false;
+      });
+    }
+    return this.ready;
+  }
+
+  async instantiate() {
+    try {
+      drawingGlue.initSync({ module: this.wasm });
+      return;
+    } catch (e) {
+      // Some browsers refuse to compile a large module synchronously on
+      // the main thread; the asynchronous way gives the same instance.
+      if (!(e instanceof RangeError)) throw e;
+    }
+    const module = await WebAssembly.compile(this.wasm);
+    await drawingGlue.default({ module_or_path: module });
+  }
+
+  /**
+   * Draws one figure (an element of a check's `figures`) on the canvas
+   * with this id.
+   * @param {string} canvasId
+   * @param {object} figure
+   */
+  async draw(canvasId, figure) {
+    await this.start();
+    if (this.broken) return this.broken;
+    try {
+      return drawingGlue.draw_figure(canvasId, JSON.stringify(figure));
+    } catch (e) {
+      // A trap leaves this instance unusable: later figures say so too.
+      let message = null;
+      try { message = drawingGlue.last_panic() ?? null; } catch (_) { /* unusable */ }
+      this.broken = message || `The figures could not be drawn (an internal error, which is a bug: ${e && e.message ? e.message : e}).`;
+      return this.broken;
+    }
   }
 }

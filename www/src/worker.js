@@ -1,20 +1,30 @@
-// The worker: loads the wasm and answers inspect and fit messages. It holds
-// no statistics; every number comes from the wasm (`inspect`, `fit_bytes`).
+// The worker: loads the wasm and answers inspect, fit, check and select
+// messages. It holds no statistics; every number comes from the wasm
+// (`inspect`, `fit_bytes`, `check_bytes`, `select_bytes`).
 //
 // The build (www/tools/inline.mjs) puts the wasm-bindgen glue in front of
 // this file and removes the import line below, so that the whole worker is
 // one module that starts from a data: URL.
-import { initSync, fit_bytes, inspect, last_panic } from './plumbline.js';
+import { initSync, check_bytes, fit_bytes, inspect, last_panic, select_bytes } from './plumbline.js';
 
 // Messages in:
 //   {type: 'init', wasm: Uint8Array}              -> {type: 'ready'} | {type: 'failed', message}
 //   {type: 'inspect', id, bytes: Uint8Array, request}
-//   {type: 'fit', id, bytes: Uint8Array, request}  -> {type: 'result', id, json}
+//   {type: 'fit', id, bytes: Uint8Array, request}
+//   {type: 'check', id, bytes: Uint8Array, request}
+//   {type: 'select', id, bytes: Uint8Array, request}
+//                                                  -> {type: 'result', id, json}
 //                                                  | {type: 'panic', id, message}
+//     a select also sends {type: 'progress', id, share} on the way, share
+//     being the part (0..1) of the subsets covered. A search is stopped by
+//     ending the worker: the wasm call runs to its end once started.
 //   {type: 'die', id}  (test hook) throws outside any handler, so that the
 //                      page sees the worker's error event.
 //   {type: 'pretend-panic', id}  (test hook) answers as a panic would.
 let ready = false;
+
+/** At most this often (ms) a progress message, unless the share moved a lot. */
+const PROGRESS_EVERY_MS = 80;
 
 function panicMessage(e) {
   let message = null;
@@ -24,6 +34,29 @@ function panicMessage(e) {
     // The instance may be unusable after a trap; the thrown error is all we have.
   }
   return message ?? `The calculation stopped on an internal error, which is a bug: ${e && e.message ? e.message : e}`;
+}
+
+/** A progress callback for the wasm that posts the share, not too often. */
+function progressPoster(id) {
+  let lastTime = 0;
+  let lastShare = -1;
+  return (share) => {
+    const now = Date.now();
+    if (share >= 1 || share - lastShare >= 0.02 || now - lastTime >= PROGRESS_EVERY_MS) {
+      lastTime = now;
+      lastShare = share;
+      self.postMessage({ type: 'progress', id, share });
+    }
+  };
+}
+
+function run(msg) {
+  switch (msg.type) {
+    case 'fit': return fit_bytes(msg.bytes, msg.request);
+    case 'check': return check_bytes(msg.bytes, msg.request);
+    case 'select': return select_bytes(msg.bytes, msg.request, progressPoster(msg.id));
+    default: return inspect(msg.bytes, msg.request);
+  }
 }
 
 self.onmessage = (event) => {
@@ -40,14 +73,16 @@ self.onmessage = (event) => {
       return;
     }
     case 'inspect':
-    case 'fit': {
+    case 'fit':
+    case 'check':
+    case 'select': {
       if (!ready) {
         self.postMessage({ type: 'panic', id: msg.id, message: 'The calculation part of the page was not ready.' });
         return;
       }
       let json;
       try {
-        json = msg.type === 'fit' ? fit_bytes(msg.bytes, msg.request) : inspect(msg.bytes, msg.request);
+        json = run(msg);
       } catch (e) {
         // A Rust panic aborts the wasm call; the hook kept its message.
         self.postMessage({ type: 'panic', id: msg.id, message: panicMessage(e) });

@@ -1,7 +1,7 @@
 // Writes dist/plumbline.html: one self-contained page with the CSS, the app
-// JS (engine.js + app.js as one module script), the worker (wasm-bindgen
-// glue + worker.js, as a data: URL module worker), the wasm (base64) and the
-// demo CSV all inlined. No dependencies; run from any directory:
+// JS (the wasm-bindgen glue for drawing on the main thread + engine.js +
+// app.js as one module script), the worker (the same glue + worker.js, as a
+// data: URL module worker), the wasm (base64) and the demo CSV all inlined. No dependencies; run from any directory:
 //
 //   node www/tools/inline.mjs [--pkg target/www-pkg] [--out dist/plumbline.html]
 //
@@ -65,8 +65,33 @@ function checkModuleSyntax(code, what) {
   }
 }
 
+// The wasm-bindgen glue. Its whole-line comments that cite a web address
+// (wasm-bindgen quotes documentation) go: the page must name no remote place.
+const glue = read(join(pkg, 'plumbline.js')).replace(/^[ \t]*\/\/.*\b(?:https?|wss?|ftp):\/\/.*\n/gim, '');
+
+/**
+ * The glue as an expression whose value is its namespace object, for the
+ * page's main thread: `export` is taken off its declarations and the export
+ * list becomes the object returned, so that its names stay its own.
+ */
+function glueNamespace(code) {
+  const names = [];
+  let body = code.replace(/^export (?:async function|function|class|const|let) ([A-Za-z_$][\w$]*)/gm, (m, name) => {
+    names.push(`${name}: ${name}`);
+    return m.replace(/^export /, '');
+  });
+  body = body.replace(/^export \{([^}]*)\};?[ \t]*\n?/gm, (m, list) => {
+    for (const item of list.split(',').map((x) => x.trim()).filter(Boolean)) {
+      const [local, as] = item.split(/\s+as\s+/);
+      names.push(`${as || local}: ${local}`);
+    }
+    return '';
+  });
+  if (/^\s*(?:export|import)\b/m.test(body)) fail('the glue has an import or export the bundler does not handle');
+  return `(() => {\n${body}\nreturn Object.freeze({ ${names.join(', ')} });\n})()`;
+}
+
 // The worker: the glue, then worker.js without its import of the glue.
-const glue = read(join(pkg, 'plumbline.js'));
 let workerJs = read(join(src, 'worker.js'));
 workerJs = removeExactlyOnce(workerJs, /^import \{[^}]*\} from '\.\/plumbline\.js';\n/m, "import of './plumbline.js' in worker.js");
 if (/^\s*import[\s{]/m.test(workerJs) || /^\s*import[\s{]/m.test(glue)) fail('the worker would still import a module');
@@ -77,6 +102,12 @@ const workerUrl = `data:text/javascript;base64,${Buffer.from(workerSrc, 'utf8').
 // The page script: engine.js with its exports made plain, then app.js
 // without its import of engine.js.
 let engineJs = read(join(src, 'engine.js'));
+// engine.js's Painter draws with a main-thread instance of the same wasm.
+const glueImport = /^import \* as ([A-Za-z_$][\w$]*) from '\.\/plumbline\.js';\n/m;
+const glueName = (engineJs.match(glueImport) || [])[1];
+if (!glueName) fail("expected engine.js to import the glue as: import * as NAME from './plumbline.js';");
+engineJs = removeExactlyOnce(engineJs, glueImport, "import of './plumbline.js' in engine.js");
+engineJs = `const ${glueName} = ${glueNamespace(glue)};\n${engineJs}`;
 engineJs = engineJs.replace(/^export (?=(?:async function|function|class|const|let)\b)/gm, '');
 if (/^\s*(?:export|import)\b/m.test(engineJs)) fail('engine.js has an import or export the bundler does not handle');
 let appJs = read(join(src, 'app.js'));
