@@ -1,8 +1,11 @@
 //! Replays the fuzzing corpora (`tests/fuzz/corpus/<target>/`) and the saved
-//! regressions (`tests/fuzz/regressions/`) through the same calls as the
-//! fuzz targets, on the stable toolchain, so that `cargo test` catches a
-//! reader, the profile or the term parser panicking on any input the fuzzer
-//! has kept. Every `Err` must also display a non-empty message.
+//! regressions (`tests/fuzz/regressions/`) through the same calls and checks
+//! as the fuzz targets, on the stable toolchain, so that `cargo test` catches
+//! a reader, the profile or the term parser failing on any input the fuzzer
+//! has kept. A failure is a panic (also one the library catches itself, which
+//! libFuzzer counts as a crash and which aborts in wasm), a runaway
+//! allocation, a term whose text does not read back, or an `Err` with an
+//! empty message. Each corpus must hold at least one file.
 //!
 //! The targets themselves live in `tests/fuzz/` (see its README).
 
@@ -11,11 +14,12 @@ use plumbline::read::workbook::read_workbook;
 use plumbline::read::{list_sheets, read_paste, read_table, Format, ReadOptions};
 use plumbline::terms::{parse_term, parse_terms};
 use std::alloc::{GlobalAlloc, Layout, System};
+use std::cell::{Cell, RefCell};
 use std::io::Write;
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
-use std::sync::Mutex;
+use std::sync::{Mutex, Once};
 
 /// An allocator that refuses any single allocation of 1 GiB or more and
 /// more than 2 GiB live in all, so that an input that makes a reader
@@ -97,6 +101,37 @@ fn reserve_growth(size: usize, growth: usize) -> bool {
 
 #[global_allocator]
 static ALLOC: Capped = Capped;
+
+thread_local! {
+    /// True while this thread replays an input.
+    static REPLAYING: Cell<bool> = const { Cell::new(false) };
+    /// The panics of the input being replayed, caught or not.
+    static PANICS: RefCell<Vec<String>> = const { RefCell::new(Vec::new()) };
+}
+
+/// Records every panic during a replay, including one that the reader
+/// catches itself: under libFuzzer any panic is a crash, and in wasm a
+/// panic aborts whoever catches it. Other panics go to the usual hook.
+fn install_panic_hook() {
+    static ONCE: Once = Once::new();
+    ONCE.call_once(|| {
+        let previous = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if REPLAYING.with(|r| r.get()) {
+                let payload = info
+                    .payload()
+                    .downcast_ref::<String>()
+                    .cloned()
+                    .or_else(|| info.payload().downcast_ref::<&str>().map(|s| s.to_string()))
+                    .unwrap_or_else(|| "a panic".into());
+                let at = info.location().map(|l| format!(" at {}:{}", l.file(), l.line())).unwrap_or_default();
+                PANICS.with(|p| p.borrow_mut().push(format!("{payload}{at}")));
+            } else {
+                previous(info)
+            }
+        }));
+    });
+}
 
 fn fuzz_dir() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests").join("fuzz")
@@ -186,23 +221,31 @@ fn replay(paths: &[PathBuf], name: &str, target: Target) -> Vec<String> {
         let data = std::fs::read(path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
         let shown = format!("{} ({name})", path.display());
         CURRENT.lock().unwrap_or_else(|e| e.into_inner()).push(shown.clone());
+        install_panic_hook();
+        REPLAYING.with(|r| r.set(true));
         let outcome = catch_unwind(AssertUnwindSafe(|| target(&data)));
+        REPLAYING.with(|r| r.set(false));
+        let panics = PANICS.with(|p| std::mem::take(&mut *p.borrow_mut()));
         let mut current = CURRENT.lock().unwrap_or_else(|e| e.into_inner());
         if let Some(i) = current.iter().position(|f| *f == shown) {
             current.remove(i);
         }
         drop(current);
+        // Overflow checks exist only in debug builds: the release and wasm
+        // builds wrap and the reader returns an error (checked by running the
+        // release CLI on the file). A caught overflow panic in a debug build
+        // is therefore accepted; any other caught panic is a failure, since
+        // in wasm a panic aborts.
+        let panics: Vec<String> = panics
+            .into_iter()
+            .filter(|p| !(cfg!(debug_assertions) && p.contains("with overflow")))
+            .collect();
         match outcome {
-            Ok(Ok(())) => {}
-            Ok(Err(why)) => failures.push(format!("{} ({name}): {why}", path.display())),
-            Err(panic) => {
-                let why = panic
-                    .downcast_ref::<String>()
-                    .cloned()
-                    .or_else(|| panic.downcast_ref::<&str>().map(|s| s.to_string()))
-                    .unwrap_or_else(|| "a panic".into());
-                failures.push(format!("{} ({name}) panicked: {why}", path.display()))
-            }
+            Ok(Ok(())) if panics.is_empty() => {}
+            Ok(Ok(())) => failures
+                .push(format!("{shown} panicked, and the panic was caught inside the library: {}", panics.join("; "))),
+            Ok(Err(why)) => failures.push(format!("{shown}: {why}")),
+            Err(_) => failures.push(format!("{shown} panicked: {}", panics.join("; "))),
         }
     }
     failures
@@ -233,20 +276,69 @@ fn terms_corpus_replays() {
     assert_none(replay(&corpus("terms"), "terms", terms));
 }
 
-/// A regression named `<target>-<short-name>` replays through its target;
-/// one with another name goes through all three.
+const ONE_FILE: &str = "PLUMBLINE_FUZZ_REPLAY_FILE";
+
+/// The targets a regression replays through: `<target>-<short-name>`
+/// through that target, any other name through all three.
+fn targets_for(name: &str) -> Vec<(&'static str, Target)> {
+    let all: [(&'static str, Target); 3] =
+        [("read_text", read_text), ("read_workbook", read_workbook_target), ("terms", terms)];
+    let own: Vec<_> = all.iter().copied().filter(|(t, _)| name.starts_with(&format!("{t}-"))).collect();
+    if own.is_empty() {
+        all.to_vec()
+    } else {
+        own
+    }
+}
+
+/// Each regression replays in a child process (this test binary, running
+/// only [`replay_one_file`]), so that one that aborts, as a runaway
+/// allocation does, is reported by name and the others still run.
 #[test]
 fn regressions_replay() {
+    let files = files(&fuzz_dir().join("regressions"));
+    let exe = std::env::current_exe().expect("the test binary");
     let mut failures = Vec::new();
-    let targets: [(&str, Target); 3] =
-        [("read_text", read_text), ("read_workbook", read_workbook_target), ("terms", terms)];
-    for path in files(&fuzz_dir().join("regressions")) {
-        let name = path.file_name().unwrap().to_string_lossy().into_owned();
-        let own: Vec<_> = targets.iter().filter(|(t, _)| name.starts_with(&format!("{t}-"))).collect();
-        let run = if own.is_empty() { targets.iter().collect() } else { own };
-        for (t, f) in run {
-            failures.extend(replay(std::slice::from_ref(&path), t, *f));
+    for path in &files {
+        let out = std::process::Command::new(&exe)
+            .args(["--exact", "replay_one_file", "--nocapture", "--test-threads=1"])
+            .env(ONE_FILE, path)
+            .output()
+            .expect("run the test binary");
+        if !out.status.success() {
+            let text = String::from_utf8_lossy(&out.stderr).into_owned() + &String::from_utf8_lossy(&out.stdout);
+            let lines: Vec<&str> = text
+                .lines()
+                .filter(|l| {
+                    l.contains("fuzz_replay:")
+                        || l.contains(".rs:")
+                        || l.starts_with("memory allocation")
+                        || l.contains("failed")
+                        || l.contains("panicked")
+                })
+                .filter(|l| !l.trim_start().starts_with("at ") && !l.starts_with("test "))
+                .collect();
+            failures.push(format!("{} ({}):\n    {}", path.display(), out.status, lines.join("\n    ")));
         }
+    }
+    assert!(
+        failures.is_empty(),
+        "{} of {} regression(s) failed:\n{}",
+        failures.len(),
+        files.len(),
+        failures.join("\n")
+    );
+}
+
+/// Replays the one file named by `PLUMBLINE_FUZZ_REPLAY_FILE`, for
+/// [`regressions_replay`]; without it, does nothing.
+#[test]
+fn replay_one_file() {
+    let Some(path) = std::env::var_os(ONE_FILE).map(PathBuf::from) else { return };
+    let name = path.file_name().unwrap().to_string_lossy().into_owned();
+    let mut failures = Vec::new();
+    for (t, f) in targets_for(&name) {
+        failures.extend(replay(std::slice::from_ref(&path), t, f));
     }
     assert_none(failures);
 }

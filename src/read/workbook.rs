@@ -10,12 +10,12 @@ use std::io::Cursor;
 
 /// The sheets of a workbook, in order.
 pub fn list_sheets(bytes: &[u8]) -> Result<Vec<String>, ReadError> {
-    guarded(|| Ok(open(bytes)?.sheet_names()))
+    guarded(|| Ok(open(bytes, super::Limits::default().max_cells)?.sheet_names()))
 }
 
-fn open(bytes: &[u8]) -> Result<calamine::Sheets<Cursor<&[u8]>>, ReadError> {
+fn open(bytes: &[u8], max_cells: usize) -> Result<calamine::Sheets<Cursor<&[u8]>>, ReadError> {
     if bytes.starts_with(&[0xD0, 0xCF, 0x11, 0xE0]) {
-        super::cfb_guard::check(bytes).map_err(|detail| ReadError::Workbook { detail })?;
+        super::cfb_guard::check(bytes, max_cells).map_err(|detail| ReadError::Workbook { detail })?;
     }
     open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| ReadError::Workbook { detail: e.to_string() })
 }
@@ -73,7 +73,7 @@ pub fn read_workbook(bytes: &[u8], options: &ReadOptions, format: Format) -> Res
 fn read_unguarded(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
     let limits = options.limits;
     super::zip_guard(bytes, limits)?;
-    let mut wb = open(bytes)?;
+    let mut wb = open(bytes, limits.max_cells)?;
     let sheets = wb.sheet_names();
     if sheets.is_empty() {
         return Err(ReadError::Empty);
