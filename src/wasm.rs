@@ -174,31 +174,33 @@ pub fn inspect(bytes: &[u8], request: &str) -> String {
     ok(&Inspection { load: LoadSummary::of(&loaded), columns: profile.columns, preview })
 }
 
-/// Fits a model; `request` is the JSON of a fit request (with the reading
-/// options `sheet`, `header_row` and `paste`).
-#[wasm_bindgen]
-pub fn fit_bytes(bytes: &[u8], request: &str) -> String {
-    let req: FitRequest = match serde_json::from_str(request) {
-        Ok(r) => r,
-        Err(e) => return error("request", &format!("The fit request is not valid: {e}")),
-    };
-    let table = match req.read.load(bytes) {
-        Ok(l) => l.table,
-        Err(e) => return error("read", &format!("Could not read the file: {e}")),
-    };
-    let response = match parse_term(&req.response) {
-        Ok(t) => t,
-        Err(e) => return error("terms", &format!("In the response: {e}")),
-    };
-    let terms = match parse_terms(&req.terms) {
-        Ok(t) => t,
-        Err(e) => return error("terms", &format!("In the terms: {e}")),
-    };
+/// A fitted model with its table and specification, or the error JSON.
+struct FittedRequest {
+    table: crate::table::Table,
+    spec: ModelSpec,
+    fitted: crate::model::Fitted,
+}
+
+/// Reads the bytes, parses the request's model and fits it; `what` names
+/// the request in the message when it is malformed.
+fn fit_request(bytes: &[u8], request: &str, what: &str) -> Result<FittedRequest, String> {
+    let req: FitRequest = serde_json::from_str(request).map_err(|e| error("request", &format!("The {what} request is not valid: {e}")))?;
+    let table = req.read.load(bytes).map_err(|e| error("read", &format!("Could not read the file: {e}")))?.table;
+    let response = parse_term(&req.response).map_err(|e| error("terms", &format!("In the response: {e}")))?;
+    let terms = parse_terms(&req.terms).map_err(|e| error("terms", &format!("In the terms: {e}")))?;
     let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows.clone() };
     let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
-    match fit(&table, &spec, &options) {
-        Ok(f) => ok(&f.report),
-        Err(e) => error("model", &e.to_string()),
+    let fitted = fit(&table, &spec, &options).map_err(|e| error("model", &e.to_string()))?;
+    Ok(FittedRequest { table, spec, fitted })
+}
+
+/// Fits a model; `request` is the JSON of a fit request (with the reading
+/// options `sheet`, `header_row`, `paste` and `exclude_rows`).
+#[wasm_bindgen]
+pub fn fit_bytes(bytes: &[u8], request: &str) -> String {
+    match fit_request(bytes, request, "fit") {
+        Ok(f) => ok(&f.fitted.report),
+        Err(e) => e,
     }
 }
 
@@ -219,27 +221,9 @@ struct Checked<'a> {
 /// [`fit_bytes`]. Returns `{ok: {check, figures}}`.
 #[wasm_bindgen]
 pub fn check_bytes(bytes: &[u8], request: &str) -> String {
-    let req: FitRequest = match serde_json::from_str(request) {
-        Ok(r) => r,
-        Err(e) => return error("request", &format!("The check request is not valid: {e}")),
-    };
-    let table = match req.read.load(bytes) {
-        Ok(l) => l.table,
-        Err(e) => return error("read", &format!("Could not read the file: {e}")),
-    };
-    let response = match parse_term(&req.response) {
-        Ok(t) => t,
-        Err(e) => return error("terms", &format!("In the response: {e}")),
-    };
-    let terms = match parse_terms(&req.terms) {
-        Ok(t) => t,
-        Err(e) => return error("terms", &format!("In the terms: {e}")),
-    };
-    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows.clone() };
-    let options = FitOptions { level: req.level, hc3: req.hc3, ..FitOptions::default() };
-    let fitted = match fit(&table, &spec, &options) {
+    let FittedRequest { table, spec, fitted } = match fit_request(bytes, request, "check") {
         Ok(f) => f,
-        Err(e) => return error("model", &e.to_string()),
+        Err(e) => return e,
     };
     let check = crate::diagnostics::check(&fitted, &spec, table.sheet.as_deref());
     let figures = crate::plot::data::all_plots(&check, &fitted, &table);
