@@ -8,12 +8,12 @@ cd "$root"
 
 want_bindgen="$(sed -n 's/^wasm-bindgen = "=\(.*\)"$/\1/p' Cargo.toml)"
 if ! command -v wasm-bindgen >/dev/null 2>&1; then
-  echo "build.sh: the wasm-bindgen command is missing; install it with: cargo install wasm-bindgen-cli --version ${want_bindgen:-<the version in Cargo.toml>} --locked" >&2
+  echo "build.sh: the wasm-bindgen command is missing; run bash tests/setup.sh (it installs wasm-bindgen-cli ${want_bindgen:-at the version in Cargo.toml})" >&2
   exit 1
 fi
 have_bindgen="$(wasm-bindgen --version | awk '{print $2}')"
 if [[ -n "$want_bindgen" && "$have_bindgen" != "$want_bindgen" ]]; then
-  echo "build.sh: wasm-bindgen $have_bindgen is installed, but the crate pins $want_bindgen; install it with: cargo install wasm-bindgen-cli --version $want_bindgen --locked" >&2
+  echo "build.sh: wasm-bindgen $have_bindgen is installed, but the crate pins $want_bindgen; run bash tests/setup.sh to install the pinned version" >&2
   exit 1
 fi
 if ! command -v node >/dev/null 2>&1; then
