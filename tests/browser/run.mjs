@@ -48,9 +48,11 @@ function newestMtime(dir, keep) {
   }
   return newest;
 }
-const rustSources = [newestMtime(join(root, 'src'), (n) => n.endsWith('.rs')),
-  { t: statSync(join(root, 'Cargo.toml')).mtimeMs, file: join(root, 'Cargo.toml') }].sort((a, b) => b.t - a.t)[0];
-const pageSources = [rustSources, newestMtime(join(root, 'www', 'src'), () => true),
+const cargoToml = { t: statSync(join(root, 'Cargo.toml')).mtimeMs, file: join(root, 'Cargo.toml') };
+// The native binary does not compile src/wasm.rs, so a change there does not relink it.
+const rustSources = [newestMtime(join(root, 'src'), (n) => n.endsWith('.rs') && n !== 'wasm.rs'), cargoToml].sort((a, b) => b.t - a.t)[0];
+const allRust = [newestMtime(join(root, 'src'), (n) => n.endsWith('.rs')), cargoToml].sort((a, b) => b.t - a.t)[0];
+const pageSources = [allRust, newestMtime(join(root, 'www', 'src'), () => true),
   newestMtime(join(root, 'www', 'tools'), () => true)].sort((a, b) => b.t - a.t)[0];
 const stale = [];
 if (statSync(cliPath).mtimeMs < rustSources.t) stale.push(`${cliPath} is older than ${rustSources.file} (run: cargo build --release)`);
