@@ -99,13 +99,7 @@ fn influence_collinearity_and_residual_tests_match_numpy() {
         let csv = data_dir().join("reference/diagnostics").join(p["csv"].as_str().unwrap());
         let req = &p["request"];
         let fitted = common::fit_file(&csv, req["response"].as_str().unwrap(), req["terms"].as_str().unwrap(), true, None, FitOptions::default());
-        let spec = plumbline::terms::ModelSpec {
-            response: plumbline::terms::parse_term(req["response"].as_str().unwrap()).unwrap(),
-            terms: plumbline::terms::parse_terms(req["terms"].as_str().unwrap()).unwrap(),
-            intercept: true,
-            weights: None,
-            exclude: Vec::new(),
-        };
+        let spec = common::spec(req["response"].as_str().unwrap(), req["terms"].as_str().unwrap(), true);
         let c = plumbline::diagnostics::check(&fitted, &spec, None);
         let mut m = Mismatches::default();
         let per = &p["per_row"];
@@ -189,13 +183,7 @@ fn findings_name_the_planted_row() {
     let csv = data_dir().join("reference/diagnostics").join(p["csv"].as_str().unwrap());
     let req = &p["request"];
     let fitted = common::fit_file(&csv, req["response"].as_str().unwrap(), req["terms"].as_str().unwrap(), true, None, FitOptions::default());
-    let spec = plumbline::terms::ModelSpec {
-        response: plumbline::terms::parse_term(req["response"].as_str().unwrap()).unwrap(),
-        terms: plumbline::terms::parse_terms(req["terms"].as_str().unwrap()).unwrap(),
-        intercept: true,
-        weights: None,
-        exclude: Vec::new(),
-    };
+    let spec = common::spec(req["response"].as_str().unwrap(), req["terms"].as_str().unwrap(), true);
     let c = plumbline::diagnostics::check(&fitted, &spec, Some("Survey"));
     let planted = p["max_cooks_row"].as_u64().unwrap() as usize;
     let row = c.rows[planted].row;

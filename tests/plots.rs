@@ -15,13 +15,7 @@ fn demo_check() -> (Vec<plumbline::plot::data::Figure>, usize) {
     let terms = "log(floor_area_m2), cat(climate_zone), mean_outdoor_temp_c, cat(hvac_type), retrofit, building_age";
     let fitted = common::fit_file(&csv, "log(energy_mwh)", terms, true, None, FitOptions::default());
     let table = plumbline::read::csv::read_csv(&std::fs::read(&csv).unwrap()).unwrap();
-    let spec = plumbline::terms::ModelSpec {
-        response: plumbline::terms::parse_term("log(energy_mwh)").unwrap(),
-        terms: plumbline::terms::parse_terms(terms).unwrap(),
-        intercept: true,
-        weights: None,
-        exclude: Vec::new(),
-    };
+    let spec = common::spec("log(energy_mwh)", terms, true);
     let c = plumbline::diagnostics::check(&fitted, &spec, None);
     let n = c.rows.len();
     (all_plots(&c, &fitted, &table), n)

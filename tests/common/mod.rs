@@ -18,17 +18,22 @@ pub fn read_json(path: &Path) -> Value {
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
 
+/// A model specification from response and terms text (no weights, no rows left out).
+pub fn spec(response: &str, terms: &str, intercept: bool) -> ModelSpec {
+    ModelSpec {
+        response: parse_term(response).unwrap(),
+        terms: parse_terms(terms).unwrap(),
+        intercept,
+        weights: None,
+        exclude: Vec::new(),
+    }
+}
+
 /// Fits through the library, as the page does.
 pub fn fit_file(csv: &Path, response: &str, terms: &str, intercept: bool, weights: Option<&str>, options: FitOptions) -> Fitted {
     let bytes = std::fs::read(csv).unwrap();
     let table = read_csv(&bytes).unwrap();
-    let spec = ModelSpec {
-        response: parse_term(response).unwrap(),
-        terms: parse_terms(terms).unwrap(),
-        intercept,
-        weights: weights.map(String::from),
-        exclude: Vec::new(),
-    };
+    let spec = ModelSpec { weights: weights.map(String::from), ..spec(response, terms, intercept) };
     fit(&table, &spec, &options).unwrap_or_else(|e| panic!("{}: {e}", csv.display()))
 }
 
@@ -90,20 +95,16 @@ impl Mismatches {
     }
 }
 
-/// A small seeded generator (SplitMix64) for test data, so that tests do not
-/// depend on another crate's stream.
-pub struct Rng(u64);
+/// A seeded generator for test data: the library's SplitMix64 stream,
+/// with uniform and normal draws on top.
+pub struct Rng(plumbline::select::cv::SplitMix64);
 
 impl Rng {
     pub fn new(seed: u64) -> Rng {
-        Rng(seed)
+        Rng(plumbline::select::cv::SplitMix64::new(seed))
     }
     pub fn next_u64(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
+        self.0.next_u64()
     }
     /// Uniform in [0, 1).
     pub fn uniform(&mut self) -> f64 {
@@ -141,12 +142,6 @@ pub fn random_table(seed: u64, n: usize, p: usize) -> plumbline::table::Table {
 
 /// Fits a table through the library.
 pub fn fit_table(table: &plumbline::table::Table, response: &str, terms: &str, intercept: bool, options: FitOptions) -> Result<Fitted, plumbline::model::FitError> {
-    let spec = ModelSpec {
-        response: parse_term(response).unwrap(),
-        terms: parse_terms(terms).unwrap(),
-        intercept,
-        weights: None,
-        exclude: Vec::new(),
-    };
+    let spec = spec(response, terms, intercept);
     fit(table, &spec, &options)
 }
