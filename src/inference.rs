@@ -66,15 +66,13 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         }
     };
     let mut warnings = design.warnings.clone();
-    if let Some(label) = extreme_column(design) {
-        warnings.push(format!(
-            "{label} has values beyond about 1e±150, whose squares double precision cannot hold, so some figures \
-             may show as infinite or undefined. Rescale it (for example to thousands or millions) and fit again."
-        ));
-    }
 
-    // Sums in double-double from the (unweighted) response.
-    let y: Vec<DD> = (0..n).map(|i| design.response.get(i)).collect();
+    // Sums of squares in double-double, on the response multiplied by the
+    // kernel's power of two (`y_scale`), so that data near 1e±300 neither
+    // overflow nor underflow; every ratio below is free of the scale.
+    let ys = sol.y_scale;
+    let unscale = 1.0 / ys;
+    let y: Vec<DD> = (0..n).map(|i| design.response.get(i).scale(ys)).collect();
     let sw = w.iter().fold(DD::ZERO, |s, &v| s + DD::from_f64(v));
     let tss = if spec.intercept {
         let mean = y.iter().zip(w).fold(DD::ZERO, |s, (&yi, &wi)| s + yi * DD::from_f64(wi)) / sw;
@@ -85,17 +83,29 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
     } else {
         y.iter().zip(w).fold(DD::ZERO, |s, (&yi, &wi)| s + yi * yi * DD::from_f64(wi))
     };
-    let rss = sol.rss;
+    let rss = sol.rss_scaled;
     let rss_f = rss.to_f64();
     let tss_f = tss.to_f64();
     if tss_f == 0.0 {
         warnings.push("The response has the same value in every row used, so R² and the F test are not defined.".into());
     }
+    // The sums of squares as reported, on the response's own scale.
+    let unscaled = |v: DD| crate::lstsq::unscale_sum(v, unscale).to_f64();
+    let (rss_out, tss_out, model_ss_out) = (unscaled(rss), unscaled(tss), unscaled(tss - rss));
+    let out_of_range = |reported: f64, scaled: f64| !reported.is_finite() || (scaled > 0.0 && reported < f64::MIN_POSITIVE);
+    if out_of_range(rss_out, rss_f) || out_of_range(tss_out, tss_f) {
+        warnings.push(format!(
+            "The sums of squares of {} lie beyond the range of double precision (its values are near 1e±300), \
+             so the residual, total and explained sums of squares show as infinite or zero. Every other figure was \
+             computed on exactly rescaled values and is not affected.",
+            design.response_label
+        ));
+    }
     let r2 = (DD::ONE - rss / tss).to_f64();
     let k0 = if spec.intercept { 1.0 } else { 0.0 };
     let adj = 1.0 - (1.0 - r2) * (n as f64 - k0) / dfr;
     let sigma2 = rss / DD::from_f64(dfr);
-    let sigma = sigma2.sqrt().to_f64();
+    let sigma = sigma2.sqrt().to_f64() / ys;
     let df_model = if spec.intercept { r.saturating_sub(1) } else { r };
     let (f, f_p) = if df_model == 0 {
         (f64::NAN, f64::NAN)
@@ -112,14 +122,17 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
     };
     let nf = n as f64;
     let sum_log_w: f64 = w.iter().map(|v| v.ln()).sum();
-    let ll = -nf / 2.0 * ((2.0 * std::f64::consts::PI).ln() + (rss_f / nf).ln() + 1.0) + sum_log_w / 2.0;
+    // ln(RSS/n), from RSS·ys² (= ln(RSS·ys²/n) − 2 ln ys) when RSS itself
+    // is out of range.
+    let ln_rss_n = if rss_out.is_normal() { (rss_out / nf).ln() } else { (rss_f / nf).ln() - 2.0 * ys.ln() };
+    let ll = -nf / 2.0 * ((2.0 * std::f64::consts::PI).ln() + ln_rss_n + 1.0) + sum_log_w / 2.0;
     let kpar = (r + 1) as f64;
     let aic = -2.0 * ll + 2.0 * kpar;
     let bic = -2.0 * ll + nf.ln() * kpar;
 
     // Coefficients.
     let q = t_quantile(opts.level, dfr);
-    let sd_y = weighted_sd(&y.iter().map(|v| v.to_f64()).collect::<Vec<_>>(), w);
+    let sd_y = weighted_sd(&(0..n).map(|i| design.response.get(i).to_f64()).collect::<Vec<_>>(), w);
     let p = design.columns.len();
     let mut coefficients = Vec::with_capacity(p);
     for (j, col) in design.columns.iter().enumerate() {
@@ -141,7 +154,7 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
             continue;
         }
         let b = sol.coef[j];
-        let se = sigma * sol.xtx_inv[j * p + j].sqrt();
+        let se = sigma * sol.se_factor(j);
         let t = b / se;
         let standardized = col.term.map(|_| b * weighted_sd(&col.values.hi, w) / sd_y);
         coefficients.push(Coefficient {
@@ -169,9 +182,11 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
     }
 
     let hc3 = opts.hc3.then(|| {
+        // On the scaled residuals (√w-weighted already); the scale is taken
+        // out of the standard error at the end.
         let omega: Vec<f64> = (0..n)
             .map(|i| {
-                let e = sol.residuals[i].to_f64(); // already √w-weighted
+                let e = sol.scaled_residual(i);
                 let d = 1.0 - sol.leverage[i];
                 e * e / (d * d)
             })
@@ -179,12 +194,12 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         if sol.leverage.iter().any(|&h| h > 1.0 - 1e-10) {
             warnings.push("Some rows have leverage 1 (they alone fix a coefficient), so HC3 standard errors are not defined.".into());
         }
-        let cov = sol.sandwich(&omega);
+        let se_scaled = sol.sandwich_se(&omega);
         coefficients
             .iter()
             .enumerate()
             .map(|(j, c)| {
-                let se = cov[j * p + j].sqrt();
+                let se = se_scaled[j] / ys;
                 let t = c.estimate / se;
                 RobustCoefficient {
                     term: c.term.clone(),
@@ -216,9 +231,9 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         r_squared_kind: if spec.intercept { "centred" } else { "uncentred" },
         adj_r_squared: adj,
         residual_std_error: sigma,
-        rss: rss_f,
-        tss: tss_f,
-        model_ss: (tss - rss).to_f64(),
+        rss: rss_out,
+        tss: tss_out,
+        model_ss: model_ss_out,
         f_statistic: f,
         f_p_value: f_p,
         log_likelihood: ll,
@@ -236,19 +251,13 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
     }
 }
 
-/// The first column (response first) with a non-zero magnitude outside
-/// [1e-150, 1e150].
-fn extreme_column(design: &Design) -> Option<String> {
-    let extreme = |v: &[f64]| v.iter().any(|x| x.abs() > 1e150 || (*x != 0.0 && x.abs() < 1e-150));
-    if extreme(&design.response.hi) {
-        return Some(design.response_label.clone());
-    }
-    design.columns.iter().find(|c| extreme(&c.values.hi)).map(|c| c.label.clone())
-}
-
-/// Weighted standard deviation √(Σw(v − v̄_w)²/Σw).
+/// Weighted standard deviation √(Σw(v − v̄_w)²/Σw), computed on v times a
+/// power of two (exact) so that values near 1e±300 neither overflow nor
+/// underflow when squared.
 fn weighted_sd(v: &[f64], w: &[f64]) -> f64 {
+    let big = v.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    let c = if big > 0.0 && big.is_finite() { 2f64.powi(-(big.log2().floor() as i32).clamp(-1020, 1020)) } else { 1.0 };
     let sw: f64 = w.iter().sum();
-    let mean = v.iter().zip(w).map(|(a, b)| a * b).sum::<f64>() / sw;
-    (v.iter().zip(w).map(|(a, b)| b * (a - mean) * (a - mean)).sum::<f64>() / sw).sqrt()
+    let mean = v.iter().zip(w).map(|(a, b)| a * c * b).sum::<f64>() / sw;
+    (v.iter().zip(w).map(|(a, b)| b * (a * c - mean) * (a * c - mean)).sum::<f64>() / sw).sqrt() / c
 }

@@ -86,6 +86,10 @@ pub fn collinearity(f: &Fitted) -> Collinearity {
     // Centred (or not) weighted columns, scaled to unit length.
     let prep = |j: usize, centre: bool| -> Vec<f64> {
         let v: Vec<f64> = (0..n).map(|i| d.columns[j].values.get(i).to_f64()).collect();
+        // Scaled to unit length below, so an exact power of two may be
+        // applied first: squares of values near 1e±300 then stay in range.
+        let c = super::residual_tests::pow2_for(&v);
+        let v: Vec<f64> = v.iter().map(|x| x * c).collect();
         let mean = if centre { v.iter().zip(&w).map(|(a, b)| a * b).sum::<f64>() / sw } else { 0.0 };
         let c: Vec<f64> = v.iter().zip(&w).map(|(a, b)| (a - mean) * b.sqrt()).collect();
         let norm = c.iter().map(|x| x * x).sum::<f64>().sqrt();

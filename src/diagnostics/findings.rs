@@ -225,6 +225,18 @@ pub fn findings(c: &CheckReport, sheet: Option<&str>) -> Vec<Finding> {
             rule: "condition number > 30 (Belsley, Kuh and Welsch 1980; common practice)".into(),
         });
     }
+    let tss_lost = c.fit.tss < f64::MIN_POSITIVE && c.fit.r_squared.is_finite();
+    if !c.fit.rss.is_finite() || !c.fit.tss.is_finite() || !c.press.is_finite() || tss_lost {
+        out.push(Finding {
+            severity: 1,
+            text: format!(
+                "{} has values near 1e±300, so its sums of squares (RSS, the total and explained sums and PRESS) are beyond \
+                 double precision and show as infinite or zero. The other figures were computed on exactly rescaled values.",
+                c.fit.response
+            ),
+            rule: "range of double precision (about 1e±308)".into(),
+        });
+    }
     out.sort_by_key(|f| std::cmp::Reverse(f.severity));
     if out.is_empty() {
         out.push(Finding { severity: 0, text: "None of the checks raised a concern.".into(), rule: "all checks".into() });

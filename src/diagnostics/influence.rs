@@ -46,9 +46,14 @@ pub fn row_diagnostics(f: &Fitted) -> Vec<RowDiagnostics> {
     let p = sol.cols;
     let r = sol.rank as f64;
     let dfr = n as f64 - r;
-    let rss = sol.rss.to_f64();
+    // Every ratio below is free of the response's scale, so it is computed
+    // on the residuals times the kernel's power of two (`y_scale`), whose
+    // squares stay in range for data near 1e±300.
+    let rss = sol.rss_scaled.to_f64();
     let sigma2 = rss / dfr;
     let sigma = sigma2.sqrt();
+    let unit = sol.unit_xtx_inv();
+    let scales = sol.scales();
     let root_w: Vec<f64> = match &d.weights {
         Some(w) => w.iter().map(|v| v.sqrt()).collect(),
         None => vec![1.0; n],
@@ -56,10 +61,10 @@ pub fn row_diagnostics(f: &Fitted) -> Vec<RowDiagnostics> {
     let accepted: Vec<usize> = (0..p).filter(|j| !sol.aliased.contains(j)).collect();
     let mut out = Vec::with_capacity(n);
     for i in 0..n {
-        let e = sol.residuals[i].to_f64(); // √w-scaled
+        let e = sol.scaled_residual(i); // √w-weighted, times y_scale
         let h = sol.leverage[i];
         let y = d.response.get(i).to_f64();
-        let resid = e / root_w[i];
+        let resid = sol.residuals[i].to_f64() / root_w[i];
         let fitted = y - resid;
         let one_minus_h = 1.0 - h;
         let s2_i = ((dfr * sigma2 - e * e / one_minus_h) / (dfr - 1.0)).max(0.0);
@@ -68,15 +73,16 @@ pub fn row_diagnostics(f: &Fitted) -> Vec<RowDiagnostics> {
         let studentized = e / (s_i * one_minus_h.sqrt());
         let cooks = standardized * standardized * h / (r * one_minus_h);
         let dffits = studentized * (h / one_minus_h).sqrt();
-        // (XᵀX)⁻¹ x̃ᵢ, x̃ᵢ the weighted row.
+        // (XᵀX)⁻¹ x̃ᵢ, x̃ᵢ the weighted row, on the scaled columns (the
+        // column scale cancels between the change and its standard error).
         let mut dfbetas = vec![None; p];
         for &j in &accepted {
             let mut cx = 0.0;
             for &k in &accepted {
-                cx += sol.xtx_inv[j * p + k] * d.columns[k].values.get(i).to_f64() * root_w[i];
+                cx += unit[j * p + k] * (d.columns[k].values.get(i).to_f64() * root_w[i] * scales[k]);
             }
             let change = cx * e / one_minus_h;
-            dfbetas[j] = Some(change / (s_i * sol.xtx_inv[j * p + j].sqrt()));
+            dfbetas[j] = Some(change / (s_i * unit[j * p + j].sqrt()));
         }
         out.push(RowDiagnostics {
             row: f.report.rows_used[i],
@@ -97,10 +103,12 @@ pub fn row_diagnostics(f: &Fitted) -> Vec<RowDiagnostics> {
 /// Σ(eᵢ/(1 − hᵢ))² (Allen 1974, Technometrics 16), on the weighted scale.
 pub fn press(f: &Fitted) -> f64 {
     let sol = &f.solution;
-    (0..sol.rows)
+    let scaled: f64 = (0..sol.rows)
         .map(|i| {
-            let e = sol.residuals[i].to_f64() / (1.0 - sol.leverage[i]);
+            let e = sol.scaled_residual(i) / (1.0 - sol.leverage[i]);
             e * e
         })
-        .sum()
+        .sum();
+    // Back to the response's scale one factor at a time.
+    scaled / sol.y_scale / sol.y_scale
 }

@@ -66,6 +66,17 @@ pub struct Curvature {
     pub p_value: f64,
 }
 
+/// A power of two that brings the largest magnitude of `v` near 1, so that
+/// squares of values near 1e±300 stay in range (exact: no digit changes).
+pub(crate) fn pow2_for(v: &[f64]) -> f64 {
+    let big = v.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    if big > 0.0 && big.is_finite() {
+        2f64.powi(-(big.log2().floor() as i32).clamp(-1020, 1020))
+    } else {
+        1.0
+    }
+}
+
 fn root_weights(f: &Fitted) -> Vec<f64> {
     match &f.design.weights {
         Some(w) => w.iter().map(|v| v.sqrt()).collect(),
@@ -94,7 +105,8 @@ fn weighted_response(f: &Fitted) -> DdColumn {
 pub fn breusch_pagan(f: &Fitted) -> Option<BreuschPagan> {
     let sol = &f.solution;
     let n = sol.rows;
-    let e2: Vec<f64> = sol.residuals.iter().map(|e| e.to_f64() * e.to_f64()).collect();
+    // LM is free of the residuals' scale; squares of the scaled residuals stay in range.
+    let e2: Vec<f64> = (0..n).map(|i| sol.scaled_residual(i).powi(2)).collect();
     let mut z: Vec<DdColumn> = vec![DdColumn::from_f64(vec![1.0; n])];
     for (j, c) in f.design.columns.iter().enumerate() {
         if c.term.is_some() && !sol.aliased.contains(&j) {
@@ -142,7 +154,7 @@ pub fn durbin_watson(f: &Fitted) -> Option<DurbinWatson> {
     if n < 3 || n <= r + 2 {
         return None;
     }
-    let e: Vec<f64> = sol.residuals.iter().map(|v| v.to_f64()).collect();
+    let e: Vec<f64> = (0..n).map(|i| sol.scaled_residual(i)).collect();
     let num: f64 = e.windows(2).map(|w| (w[1] - w[0]) * (w[1] - w[0])).sum();
     let den: f64 = e.iter().map(|v| v * v).sum();
     if !(den > 0.0) {
@@ -194,7 +206,9 @@ fn augmented(f: &Fitted, extra: Vec<Vec<f64>>) -> crate::lstsq::LstsqSolution {
 pub fn reset(f: &Fitted, rows: &[super::influence::RowDiagnostics]) -> Option<FTest> {
     let sol = &f.solution;
     let n = sol.rows;
-    let fitted: Vec<f64> = rows.iter().map(|r| r.fitted).collect();
+    // Standardized below, so any exact power-of-two scale may be applied first.
+    let c = pow2_for(&rows.iter().map(|r| r.fitted).collect::<Vec<_>>());
+    let fitted: Vec<f64> = rows.iter().map(|r| r.fitted * c).collect();
     let mean = fitted.iter().sum::<f64>() / n as f64;
     let sd = (fitted.iter().map(|v| (v - mean) * (v - mean)).sum::<f64>() / n as f64).sqrt();
     if !(sd > 0.0) {
@@ -207,8 +221,10 @@ pub fn reset(f: &Fitted, rows: &[super::influence::RowDiagnostics]) -> Option<FT
         return None;
     }
     let df2 = n - aug.rank;
-    let rss0 = sol.rss.to_f64();
-    let rss1 = aug.rss.to_f64();
+    // Both on the scale of the augmented fit's response (the two scales are
+    // powers of two, and in practice equal).
+    let rss0 = sol.rss_scaled.to_f64() * (aug.y_scale / sol.y_scale).powi(2);
+    let rss1 = aug.rss_scaled.to_f64();
     let fstat = ((rss0 - rss1) / q as f64) / (rss1 / df2 as f64);
     let p = FisherSnedecor::new(q as f64, df2 as f64).ok()?.sf(fstat.max(0.0));
     Some(FTest { statistic: fstat, df1: q, df2, p_value: p })
@@ -229,7 +245,10 @@ pub fn curvature(f: &Fitted, spec: &crate::terms::ModelSpec) -> Vec<Curvature> {
         if sol.aliased.contains(&j) {
             continue;
         }
+        // Standardized below, so an exact power of two may be applied first.
         let v: Vec<f64> = (0..n).map(|i| f.design.columns[j].values.get(i).to_f64()).collect();
+        let c = pow2_for(&v);
+        let v: Vec<f64> = v.iter().map(|x| x * c).collect();
         let mean = v.iter().sum::<f64>() / n as f64;
         let sd = (v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / n as f64).sqrt();
         if !(sd > 0.0) {
@@ -242,7 +261,7 @@ pub fn curvature(f: &Fitted, spec: &crate::terms::ModelSpec) -> Vec<Curvature> {
             continue;
         }
         let dfr = (n - aug.rank) as f64;
-        let se = (aug.rss.to_f64() / dfr * aug.xtx_inv[k * aug.cols + k]).sqrt();
+        let se = aug.sigma() * aug.se_factor(k);
         let tstat = aug.coef[k] / se;
         out.push(Curvature { term: term.to_string(), t: tstat, p_value: t_p_value(tstat, dfr) });
     }
@@ -269,7 +288,9 @@ pub struct AndersonDarling {
 }
 
 pub fn normality(f: &Fitted) -> Normality {
-    let e: Vec<f64> = f.solution.residuals.iter().map(|v| v.to_f64()).collect();
+    // The tests are free of the residuals' scale; the scaled residuals'
+    // squares and fourth powers stay in range for data near 1e±300.
+    let e: Vec<f64> = (0..f.solution.rows).map(|i| f.solution.scaled_residual(i)).collect();
     Normality {
         shapiro_wilk: super::normality::shapiro_wilk(&e),
         anderson_darling: super::normality::anderson_darling(&e)

@@ -2,9 +2,14 @@
 //!
 //! The path is chosen by accuracy, not by habit:
 //!
-//! 1. Every column is multiplied by a power of two that brings its 2-norm
-//!    into [0.5, 1) (exact, so no digit is lost), which removes the bad
-//!    conditioning that comes only from units (years next to rates).
+//! 1. Every column, and the response, is multiplied by a power of two that
+//!    brings its 2-norm into [0.5, 1) (exact, so no digit is lost), which
+//!    removes the bad conditioning that comes only from units (years next
+//!    to rates) and keeps sums of squares of data near 1e±300 inside the
+//!    range of `f64`. Results are scaled back exactly; the scaled residual
+//!    sum of squares and (XᵀX)⁻¹ of the scaled columns are kept as well, so
+//!    that standard errors and tests stay finite when RSS itself (≈ 1e600)
+//!    is not representable.
 //! 2. A double-precision Householder QR with pivoting by deferral
 //!    ([`qr_pivot`]) finds the rank and estimates the 1-norm condition
 //!    number κ of the scaled R from R⁻¹.
@@ -27,6 +32,7 @@
 pub mod dd;
 pub mod qr_pivot;
 pub mod real;
+pub mod tsqr;
 
 use dd::DD;
 use qr_pivot::{factor_qr_pivoted, PivotedQr, QrParams};
@@ -128,9 +134,16 @@ pub struct LstsqSolution {
     pub rank: usize,
     /// y − Xβ, accumulated in double-double.
     pub residuals: Vec<DD>,
-    /// Σ residual², in double-double.
+    /// Σ residual², in double-double (infinite or zero when it lies
+    /// beyond the range of `f64`; see `rss_scaled`).
     pub rss: DD,
+    /// The power of two the response was multiplied by before solving.
+    pub y_scale: f64,
+    /// Σ (residual · `y_scale`)², always within range for finite data.
+    pub rss_scaled: DD,
     /// (XᵀX)⁻¹, `cols x cols` row-major, NaN in aliased rows and columns.
+    /// Infinite or zero entries for columns near 1e±300: the standard
+    /// errors use [`LstsqSolution::se_factor`] and [`LstsqSolution::unit_xtx_inv`].
     pub xtx_inv: Vec<f64>,
     /// Diagonal of the hat matrix X(XᵀX)⁻¹Xᵀ.
     pub leverage: Vec<f64>,
@@ -144,6 +157,9 @@ pub struct LstsqSolution {
     q: Vec<f64>,
     /// R⁻¹ of the scaled accepted columns, `rank x rank` column-major.
     r_inv: Vec<f64>,
+    /// (XᵀX)⁻¹ of the scaled columns, `cols x cols` row-major, NaN in
+    /// aliased rows and columns.
+    unit_xtx_inv: Vec<f64>,
     accepted: Vec<usize>,
     /// The power of two each input column was multiplied by.
     scales: Vec<f64>,
@@ -154,6 +170,11 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
     let n = y.len();
     let p = x.len();
     let scales: Vec<f64> = x.iter().map(|c| pow2_scale(&c.hi)).collect();
+    let y_scale = pow2_scale(&y.hi);
+    let y = &DdColumn {
+        hi: y.hi.iter().map(|v| v * y_scale).collect(),
+        lo: y.lo.as_ref().map(|lo| lo.iter().map(|v| v * y_scale).collect()),
+    };
     let params = QrParams { rank_tol: options.rank_tol };
 
     let fast = factor_qr_pivoted(scaled_matrix::<f64>(x, &scales, n), n, p, params);
@@ -173,12 +194,12 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
         SolverPath::DoubleDouble
     });
     match path {
-        SolverPath::Double => finish(x, y, fast, r_inv_fast, condition_fast, double_digits, path, options, scales),
+        SolverPath::Double => finish(x, y, y_scale, fast, r_inv_fast, condition_fast, double_digits, path, options, scales),
         SolverPath::DoubleDouble => {
             let slow = factor_qr_pivoted(scaled_matrix::<DD>(x, &scales, n), n, p, params);
             let r_inv = slow.invert_upper();
             let condition = condition_1(&slow, &r_inv);
-            finish(x, y, slow, r_inv, condition, double_digits, path, options, scales)
+            finish(x, y, y_scale, slow, r_inv, condition, double_digits, path, options, scales)
         }
     }
 }
@@ -187,6 +208,7 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
 fn finish<T: Real>(
     x: &[DdColumn],
     y: &DdColumn,
+    y_scale: f64,
     qr: PivotedQr<T>,
     r_inv: Vec<T>,
     condition: f64,
@@ -229,12 +251,18 @@ fn finish<T: Real>(
         coef_dd = rounded;
         residuals = rounded_residuals;
     }
+    // Back to the response's own scale (exact: y_scale is a power of two).
+    let unscale = 1.0 / y_scale;
+    let coef_dd: Vec<DD> = coef_dd.iter().map(|c| c.scale(unscale)).collect();
     let coef: Vec<f64> =
         (0..p).map(|j| if qr.accepted.contains(&j) { coef_dd[j].to_f64() } else { f64::NAN }).collect();
-    let rss = sum_sq(&residuals);
+    let rss_scaled = sum_sq(&residuals);
+    let rss = unscale_sum(rss_scaled, unscale);
+    let residuals: Vec<DD> = residuals.iter().map(|r| r.scale(unscale)).collect();
 
     // (XᵀX)⁻¹ = C R⁻¹ R⁻ᵀ C in the original column order.
     let mut xtx_inv = vec![f64::NAN; p * p];
+    let mut unit_xtx_inv = vec![f64::NAN; p * p];
     for a in 0..r {
         for b in a..r {
             let mut s = T::zero();
@@ -242,7 +270,12 @@ fn finish<T: Real>(
                 s = s + r_inv[l * r + a] * r_inv[l * r + b];
             }
             let (ja, jb) = (qr.accepted[a], qr.accepted[b]);
-            let v = s.to_dd().scale(scales[ja] * scales[jb]).to_f64();
+            let u = s.to_dd();
+            unit_xtx_inv[ja * p + jb] = u.to_f64();
+            unit_xtx_inv[jb * p + ja] = u.to_f64();
+            // One scale at a time, so that a huge and a tiny column do not
+            // overflow a product the result does not need.
+            let v = u.scale(scales[ja]).scale(scales[jb]).to_f64();
             xtx_inv[ja * p + jb] = v;
             xtx_inv[jb * p + ja] = v;
         }
@@ -266,6 +299,8 @@ fn finish<T: Real>(
         rank: r,
         residuals,
         rss,
+        y_scale,
+        rss_scaled,
         xtx_inv,
         leverage,
         condition,
@@ -274,6 +309,7 @@ fn finish<T: Real>(
         rank_tol: options.rank_tol,
         q,
         r_inv: r_inv.iter().map(|v| v.to_f64()).collect(),
+        unit_xtx_inv,
         accepted: qr.accepted,
         scales,
     }
@@ -316,6 +352,58 @@ impl LstsqSolution {
         out
     }
 
+    /// √ of the sandwich's diagonal, one per column (NaN when aliased),
+    /// computed on the scaled columns and scaled back one factor at a time,
+    /// so that it stays finite for columns near 1e±300.
+    pub fn sandwich_se(&self, omega: &[f64]) -> Vec<f64> {
+        let (n, p, r) = (self.rows, self.cols, self.rank);
+        let rinv = |i: usize, j: usize| self.r_inv[j * r + i];
+        let mut out = vec![f64::NAN; p];
+        for i in 0..r {
+            // (R⁻¹ Qᵀ)ᵢ row, then Σ ω (row)²
+            let mut v = vec![0.0; n];
+            for l in i..r {
+                let c = rinv(i, l);
+                for (k, vk) in v.iter_mut().enumerate() {
+                    *vk += c * self.q[l * n + k];
+                }
+            }
+            let s: f64 = v.iter().zip(omega).map(|(a, w)| a * a * w).sum();
+            let j = self.accepted[i];
+            out[j] = s.sqrt() * self.scales[j];
+        }
+        out
+    }
+
+    /// The power of two each input column was multiplied by.
+    pub fn scales(&self) -> &[f64] {
+        &self.scales
+    }
+
+    /// (XᵀX)⁻¹ of the scaled columns X·diag(scales), `cols x cols`
+    /// row-major, NaN in aliased rows and columns.
+    pub fn unit_xtx_inv(&self) -> &[f64] {
+        &self.unit_xtx_inv
+    }
+
+    /// √[(XᵀX)⁻¹]ⱼⱼ, the standard error of βⱼ per unit of σ, computed so
+    /// that it is finite whenever the true value is (NaN when aliased).
+    pub fn se_factor(&self, j: usize) -> f64 {
+        self.unit_xtx_inv[j * self.cols + j].sqrt() * self.scales[j]
+    }
+
+    /// σ̂ = √(RSS/(n − rank)) on the response's scale, from the scaled RSS.
+    pub fn sigma(&self) -> f64 {
+        let df = (self.rows - self.rank) as f64;
+        (self.rss_scaled / DD::from_f64(df)).sqrt().to_f64() / self.y_scale
+    }
+
+    /// Residual i times `y_scale`: the residual on a scale where its
+    /// square cannot overflow or underflow.
+    pub fn scaled_residual(&self, i: usize) -> f64 {
+        self.residuals[i].scale(self.y_scale).to_f64()
+    }
+
     /// Thin Q of the scaled accepted columns (column-major `rows x rank`),
     /// exposed for the algebra tests.
     pub fn thin_q(&self) -> &[f64] {
@@ -343,17 +431,29 @@ fn residuals_dd(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD]) -
     r
 }
 
+/// A sum of squares of the scaled problem on the response's own scale:
+/// v / y_scale², infinite (not NaN) when that is beyond `f64`.
+pub fn unscale_sum(v: DD, unscale: f64) -> DD {
+    let r = v.scale(unscale).scale(unscale);
+    if r.hi.is_finite() {
+        r
+    } else {
+        DD::from_f64(r.hi)
+    }
+}
+
 fn sum_sq(v: &[DD]) -> DD {
     v.iter().fold(DD::ZERO, |s, &e| s + e * e)
 }
 
-/// The power of two that brings the column's 2-norm into [0.5, 1).
+/// The power of two that brings the column's 2-norm into [0.5, 1)
+/// (within 2^±1020, so that its reciprocal is finite too).
 fn pow2_scale(col: &[f64]) -> f64 {
     let nrm = qr_pivot::norm(col);
     if nrm == 0.0 || !nrm.is_finite() {
         return 1.0;
     }
-    let e = nrm.log2().floor() as i32 + 1;
+    let e = (nrm.log2().floor() as i32 + 1).clamp(-1020, 1020);
     2f64.powi(-e)
 }
 

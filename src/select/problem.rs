@@ -84,13 +84,67 @@ impl Problem {
         let spec = ModelSpec { response: response.clone(), terms: all.clone(), intercept, weights, exclude: exclude.to_vec() };
         let design = build_design(table, &spec)?;
         let n = design.rows.len();
+        if n > design.columns.len() {
+            crate::model::check_response(&design, intercept)?;
+        }
         let root: Vec<DD> = match &design.weights {
             Some(w) => w.iter().map(|&v| DD::from_f64(v).sqrt()).collect(),
             None => vec![DD::ONE; n],
         };
         let scale = |c: &DdColumn| DdColumn::from_dd(&(0..n).map(|i| c.get(i) * root[i]).collect::<Vec<_>>());
-        let columns: Vec<DdColumn> = design.columns.iter().map(|c| scale(&c.values)).collect();
+        // A column with values beyond 1e±150 is multiplied by a power of two
+        // (exact) that brings them near 1, so that the search's sums of
+        // squares stay in range; its coefficients scale inversely and every
+        // figure the selection reports is unchanged.
+        let columns: Vec<DdColumn> = design
+            .columns
+            .iter()
+            .map(|c| {
+                let v = scale(&c.values);
+                let biggest = v.hi.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+                if biggest == 0.0 || (1e-150..=1e150).contains(&biggest) {
+                    return v;
+                }
+                let f = 2f64.powi(-(biggest.log2().floor() as i32).clamp(-1020, 1020));
+                DdColumn::from_dd(&(0..n).map(|i| v.get(i).scale(f)).collect::<Vec<_>>())
+            })
+            .collect();
         let y = scale(&design.response);
+        // √w times a value near 1e300 can pass the largest f64.
+        let labels = std::iter::once(&design.response_label).chain(design.columns.iter().map(|c| &c.label));
+        for (label, col) in labels.zip(std::iter::once(&y).chain(&columns)) {
+            if let Some(i) = (0..n).find(|&i| !col.get(i).is_finite()) {
+                return Err(FitError::Design(crate::terms::DesignError::Overflow {
+                    term: format!("{label} × √{}", crate::terms::parse::quote_name(spec.weights.as_deref().unwrap_or("w"))),
+                    first_row: table.source_rows[design.rows[i]],
+                }));
+            }
+        }
+        // The search compares sums of squares of the response held in f64:
+        // squares of values beyond 1e±150 are out of its range.
+        let biggest = y.hi.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        if !(1e-150..=1e150).contains(&biggest) {
+            return Err(FitError::ResponseOutOfRange { response: design.response_label.clone() });
+        }
+        // Subset fits update one factorization of all the columns, which is
+        // exact only when they are independent: refuse candidates that add
+        // no column, or whose columns the full fit aliases (a constant with
+        // the intercept, a copy, an exact combination).
+        if n > design.columns.len() {
+            let full = solve_lstsq(&columns, &y, &LstsqOptions::default());
+            let dependent: Vec<String> = all
+                .iter()
+                .enumerate()
+                .filter(|&(t, _)| {
+                    let mine: Vec<usize> = (0..design.columns.len()).filter(|&j| design.columns[j].term == Some(t)).collect();
+                    mine.is_empty() || mine.iter().any(|j| full.aliased.contains(j))
+                })
+                .map(|(_, term)| term.to_string())
+                .collect();
+            if !dependent.is_empty() {
+                return Err(FitError::DependentCandidates { terms: dependent });
+            }
+        }
         let cands: Vec<Candidate> = all
             .iter()
             .enumerate()

@@ -277,6 +277,9 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
             if w[i] < 0.0 {
                 return Err(DesignError::NegativeWeight { column: wname.clone(), row: table.source_rows[i], value: w[i] });
             }
+            if !w[i].is_finite() {
+                return Err(DesignError::Overflow { term: wname.clone(), first_row: table.source_rows[i] });
+            }
             if w[i] == 0.0 {
                 *k = false;
                 d.count += 1;
