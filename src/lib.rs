@@ -28,6 +28,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::needless_range_loop)]
 
 pub mod diagnostics;
+pub mod export;
 pub mod inference;
 pub mod lstsq;
 pub mod model;
@@ -43,3 +44,5 @@ pub mod terms;
 pub mod text;
 #[cfg(target_arch = "wasm32")]
 pub mod wasm;
+#[cfg(target_arch = "wasm32")]
+pub mod wasm_export;

@@ -145,6 +145,19 @@ fn not_a_number(table: &Table, name: &str, i: usize) -> Option<String> {
     }
 }
 
+/// The residuals on the response's own scale (unweighted).
+fn raw_residuals(fitted: &Fitted) -> Vec<f64> {
+    let sol = &fitted.solution;
+    let w = fitted.design.weights.as_ref();
+    (0..sol.rows).map(|i| sol.residuals[i].to_f64() / w.map_or(1.0, |w| w[i].sqrt())).collect()
+}
+
+/// Duan's smearing factor for a log response: the mean of exp(eᵢ).
+pub fn log_smearing(fitted: &Fitted) -> f64 {
+    let r = raw_residuals(fitted);
+    r.iter().map(|e| e.exp()).sum::<f64>() / r.len() as f64
+}
+
 /// Predicts the rows of `new` from a model fitted to `training`.
 pub fn predict(fitted: &Fitted, spec: &ModelSpec, training: &Table, new: &Table, level: f64) -> Result<PredictReport, DesignError> {
     let d = &fitted.design;
@@ -183,12 +196,10 @@ pub fn predict(fitted: &Fitted, spec: &ModelSpec, training: &Table, new: &Table,
     let sigma = rep.residual_std_error;
     let q = t_quantile(level, rep.df_residual as f64);
     let back = inverse(&spec.response);
-    let resid: Vec<f64> = (0..sol.rows)
-        .map(|i| sol.residuals[i].to_f64() / d.weights.as_ref().map_or(1.0, |w| w[i].sqrt()))
-        .collect();
+    let resid = raw_residuals(fitted);
     let smear = |g: &dyn Fn(f64) -> f64, v: f64| resid.iter().map(|e| g(v + e)).sum::<f64>() / resid.len() as f64;
     let smearing = match &spec.response {
-        Term::Log(inner) if matches!(**inner, Term::Column(_)) => Some(resid.iter().map(|e| e.exp()).sum::<f64>() / resid.len() as f64),
+        Term::Log(inner) if matches!(**inner, Term::Column(_)) => Some(log_smearing(fitted)),
         _ => None,
     };
     let mut predictions = Vec::with_capacity(new.n_rows());
@@ -233,10 +244,13 @@ pub fn predict(fitted: &Fitted, spec: &ModelSpec, training: &Table, new: &Table,
         }
         let acc: Vec<usize> = (0..p).filter(|j| !sol.aliased.contains(j)).collect();
         let est: f64 = acc.iter().map(|&j| x[j] * sol.coef[j]).sum();
+        // h₀ = x₀ᵀ(XᵀX)⁻¹x₀ on the kernel's scaled columns (the same number,
+        // without overflow or underflow when columns are near 1e±300).
+        let (unit, scales) = (sol.unit_xtx_inv(), sol.scales());
         let mut h = 0.0;
         for &a in &acc {
             for &b in &acc {
-                h += x[a] * sol.xtx_inv[a * p + b] * x[b];
+                h += (x[a] * scales[a]) * unit[a * p + b] * (x[b] * scales[b]);
             }
         }
         let h = h.max(0.0);

@@ -37,21 +37,29 @@ pub fn last_panic() -> Option<String> {
 /// How to read the bytes, as the page sends it.
 #[derive(Deserialize, Default)]
 #[serde(default)]
-struct ReadRequest {
-    sheet: Option<String>,
-    header_row: Option<usize>,
+pub(crate) struct ReadRequest {
+    pub(crate) sheet: Option<String>,
+    pub(crate) header_row: Option<usize>,
     /// The bytes are cells pasted from a spreadsheet.
-    paste: bool,
+    pub(crate) paste: bool,
     /// Source row numbers the user has left out of the model.
     exclude_rows: Vec<usize>,
+    /// `point` or `comma`, when the page knows the decimal mark (the
+    /// one-case form of Predict writes numbers with a point).
+    decimal: Option<String>,
 }
 
 impl ReadRequest {
-    fn options(&self) -> ReadOptions {
-        ReadOptions { sheet: self.sheet.clone(), header_row: self.header_row, ..ReadOptions::default() }
+    pub(crate) fn options(&self) -> ReadOptions {
+        let decimal = match self.decimal.as_deref() {
+            Some("point") => Some(crate::read::cells::Decimal::Point),
+            Some("comma") => Some(crate::read::cells::Decimal::Comma),
+            _ => None,
+        };
+        ReadOptions { sheet: self.sheet.clone(), header_row: self.header_row, decimal, ..ReadOptions::default() }
     }
 
-    fn load(&self, bytes: &[u8]) -> Result<Loaded, String> {
+    pub(crate) fn load(&self, bytes: &[u8]) -> Result<Loaded, String> {
         let options = self.options();
         let loaded = if self.paste {
             read_paste(&String::from_utf8_lossy(bytes), &options)
@@ -111,11 +119,11 @@ struct Error<'a> {
     kind: &'a str,
 }
 
-fn ok<T: Serialize>(v: &T) -> String {
+pub(crate) fn ok<T: Serialize>(v: &T) -> String {
     serde_json::to_string(&Ok { ok: v }).unwrap_or_else(|e| error("model", &format!("The result could not be encoded: {e}")))
 }
 
-fn error(kind: &str, message: &str) -> String {
+pub(crate) fn error(kind: &str, message: &str) -> String {
     serde_json::to_string(&Error { error: message, kind })
         .unwrap_or_else(|_| r#"{"error":"An error could not be encoded.","kind":"request"}"#.to_string())
 }
@@ -175,15 +183,15 @@ pub fn inspect(bytes: &[u8], request: &str) -> String {
 }
 
 /// A fitted model with its table and specification, or the error JSON.
-struct FittedRequest {
-    table: crate::table::Table,
-    spec: ModelSpec,
-    fitted: crate::model::Fitted,
+pub(crate) struct FittedRequest {
+    pub(crate) table: crate::table::Table,
+    pub(crate) spec: ModelSpec,
+    pub(crate) fitted: crate::model::Fitted,
 }
 
 /// Reads the bytes, parses the request's model and fits it; `what` names
 /// the request in the message when it is malformed.
-fn fit_request(bytes: &[u8], request: &str, what: &str) -> Result<FittedRequest, String> {
+pub(crate) fn fit_request(bytes: &[u8], request: &str, what: &str) -> Result<FittedRequest, String> {
     let req: FitRequest = serde_json::from_str(request).map_err(|e| error("request", &format!("The {what} request is not valid: {e}")))?;
     let table = req.read.load(bytes).map_err(|e| error("read", &format!("Could not read the file: {e}")))?.table;
     let response = parse_term(&req.response).map_err(|e| error("terms", &format!("In the response: {e}")))?;
@@ -342,4 +350,150 @@ pub fn select_bytes(bytes: &[u8], request: &str, progress: &js_sys::Function) ->
         Ok(r) => ok(&r),
         Err(e) => error("model", &e.to_string()),
     }
+}
+
+/// The part of a predict request that says how to read the new cases.
+#[derive(Deserialize, Default)]
+#[serde(default)]
+struct NewCasesRequest {
+    new: ReadRequest,
+}
+
+/// Predicts new cases from the model of the request: `bytes` are the data
+/// the model is fitted to, `new_bytes` the new cases (a file, a paste, or
+/// the one row the page's form writes), and `request` a fit request with
+/// `"new": {"paste", "sheet", "header_row", "decimal"}` for reading them.
+/// Returns `{ok: PredictReport}` with `original_scale`, the column the
+/// response transforms (when it does); a row that cannot be predicted carries its
+/// reason in `problem`, and only a new table that cannot be used at all
+/// (unreadable, or without a column the model needs) is an error.
+#[wasm_bindgen]
+pub fn predict_bytes(bytes: &[u8], new_bytes: &[u8], request: &str) -> String {
+    let FittedRequest { table, spec, fitted } = match fit_request(bytes, request, "predict") {
+        Ok(f) => f,
+        Err(e) => return e,
+    };
+    let new_req: NewCasesRequest = match serde_json::from_str(request) {
+        Ok(r) => r,
+        Err(e) => return error("request", &format!("The predict request is not valid: {e}")),
+    };
+    let new_table = match new_req.new.load(new_bytes) {
+        Ok(l) => l.table,
+        Err(e) => return error("read", &format!("Could not read the new cases: {e}")),
+    };
+    match crate::predict::predict(&fitted, &spec, &table, &new_table, fitted.report.level) {
+        Ok(report) => {
+            let original_scale =
+                report.back_transform.as_ref().and_then(|_| spec.response.columns().first().map(|c| c.to_string()));
+            ok(&Predicted { report: &report, original_scale })
+        }
+        Err(e) => error("model", &format!("In the new cases: {e}")),
+    }
+}
+
+/// A prediction report with the name of the response's own column when
+/// the response is transformed (the scale of the `original` values).
+#[derive(Serialize)]
+struct Predicted<'a> {
+    #[serde(flatten)]
+    report: &'a crate::predict::PredictReport,
+    original_scale: Option<String>,
+}
+
+/// One column the model reads, as the page's one-case form asks for it.
+#[derive(Serialize)]
+struct ModelInput {
+    column: String,
+    /// `number`, `date` or `category`.
+    kind: &'static str,
+    /// The levels the model was fitted with (a category), in sorted order.
+    levels: Vec<String>,
+    /// The level the others are compared with (a category).
+    reference: Option<String>,
+}
+
+/// What the one-case form of Predict needs to know about a model.
+#[derive(Serialize)]
+struct ModelInputs {
+    response: String,
+    /// How the original scale is reached, when the response is transformed.
+    transformed: bool,
+    inputs: Vec<ModelInput>,
+}
+
+/// The columns a term reads as numbers (not inside `cat`), and as categories.
+fn input_columns<'a>(t: &'a crate::terms::Term, numbers: &mut Vec<&'a str>, categories: &mut Vec<&'a str>) {
+    use crate::terms::Term;
+    match t {
+        Term::Column(c) => {
+            if !numbers.contains(&c.as_str()) {
+                numbers.push(c)
+            }
+        }
+        Term::Cat { column, .. } => {
+            if !categories.contains(&column.as_str()) {
+                categories.push(column)
+            }
+        }
+        Term::Log(x) | Term::Sqrt(x) | Term::Power(x, _) | Term::BoxCox(x, _) | Term::YeoJohnson(x, _) => {
+            input_columns(x, numbers, categories)
+        }
+        Term::Product(a, b) => {
+            input_columns(a, numbers, categories);
+            input_columns(b, numbers, categories);
+        }
+    }
+}
+
+/// The columns the model of a fit request reads, in the order of its
+/// terms, each with what a new case must give: a number, a date, or one of
+/// the levels the model was fitted with. Returns `{ok: ModelInputs}`.
+#[wasm_bindgen]
+pub fn model_inputs(bytes: &[u8], request: &str) -> String {
+    use crate::table::ColumnData;
+    let FittedRequest { table, spec, fitted } = match fit_request(bytes, request, "model inputs") {
+        Ok(f) => f,
+        Err(e) => return e,
+    };
+    let (mut numbers, mut categories) = (Vec::new(), Vec::new());
+    for t in &spec.terms {
+        input_columns(t, &mut numbers, &mut categories);
+    }
+    let mut order: Vec<&str> = Vec::new();
+    for t in &spec.terms {
+        for c in t.columns() {
+            if !order.contains(&c) {
+                order.push(c);
+            }
+        }
+    }
+    let inputs = order
+        .into_iter()
+        .map(|c| {
+            // A column read as a number anywhere needs a number, even if a
+            // category of it is in the model too.
+            if numbers.contains(&c) || !categories.contains(&c) {
+                let date = table.column(c).is_some_and(|col| matches!(col.data, ColumnData::Date(_)));
+                return ModelInput { column: c.to_string(), kind: if date { "date" } else { "number" }, levels: Vec::new(), reference: None };
+            }
+            let coded = fitted.design.levels.iter().find(|l| l.column == c);
+            ModelInput {
+                column: c.to_string(),
+                kind: "category",
+                levels: coded.map(|l| l.levels.clone()).unwrap_or_default(),
+                reference: coded.and_then(|l| l.levels.get(l.ref_index).cloned()),
+            }
+        })
+        .collect();
+    let transformed = !matches!(spec.response, crate::terms::Term::Column(_));
+    ok(&ModelInputs { response: fitted.report.response.clone(), transformed, inputs })
+}
+
+/// Panics on purpose, so that the browser tests can check that a real
+/// panic inside Rust reaches the page as a message (through the hook of
+/// [`start`] and [`last_panic`]) and that the worker is started again.
+/// The page itself never calls it.
+#[wasm_bindgen]
+pub fn panic_for_test() -> String {
+    panic!("a panic on purpose, from the test hook panic_for_test")
 }

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Installs what the build and the tests need, skipping whatever is already
 # there: the wasm target, the wasm-bindgen CLI at the version Cargo.toml pins,
-# Debian's Chromium (browser tests only) and the Node packages in www/.
+# and, with --browser (everything the tests need): LibreOffice Calc and
+# openpyxl (the export tests), Debian's Chromium and the Node packages in www/.
 # Usage: bash tests/setup.sh [--browser]
 set -euo pipefail
 root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
@@ -25,12 +26,27 @@ if ! wasm-bindgen --version 2>/dev/null | grep -q " $wb_version\$"; then
   cargo install wasm-bindgen-cli --version "$wb_version"
 fi
 
+# The spreadsheet-formula test recalculates in LibreOffice, and the
+# workbook test reads back with openpyxl.
+apt_updated=0
+apt_install() {
+  export DEBIAN_FRONTEND=noninteractive
+  if [ "$apt_updated" = 0 ]; then apt-get update -q; apt_updated=1; fi
+  apt-get install -y -q --no-install-recommends "$@"
+}
+
 if [ "$want_browser" = 1 ]; then
+  if ! command -v soffice >/dev/null 2>&1; then
+    echo "setup: installing Debian's libreoffice-calc (for the formula test)"
+    apt_install libreoffice-calc
+  fi
+  if ! python3 -c "import openpyxl" 2>/dev/null; then
+    echo "setup: installing openpyxl (for the workbook test)"
+    apt_install python3 python3-openpyxl
+  fi
   if [ ! -x /usr/bin/chromium ]; then
     echo "setup: installing Debian's chromium"
-    export DEBIAN_FRONTEND=noninteractive
-    apt-get update -q
-    apt-get install -y -q chromium chromium-driver
+    apt_install chromium chromium-driver
   fi
   if [ ! -d www/node_modules/playwright-core ] || [ www/package-lock.json -nt www/node_modules/.package-lock.json ]; then
     echo "setup: installing the Node packages of www/"
