@@ -100,7 +100,8 @@ pub fn parse_number(s: &str) -> Option<f64> {
     t.parse::<f64>().ok().filter(|v| v.is_finite())
 }
 
-/// Cell texts that mean "no value".
+/// Cell texts that mean "no value" (`nan` and `NULL` are what common
+/// data tools write for a missing number).
 pub fn is_missing_marker(s: &str) -> bool {
-    matches!(s.trim(), "" | "NA" | "N/A" | "n/a" | "NaN" | "-" | ".")
+    matches!(s.trim(), "" | "NA" | "N/A" | "n/a" | "NaN" | "nan" | "NAN" | "NULL" | "null" | "-" | ".")
 }

@@ -213,6 +213,10 @@ pub fn render_check(c: &CheckReport, sheet: Option<&str>) -> String {
     let _ = writeln!(s, "  terms: {}", if f.terms.is_empty() { "none".into() } else { f.terms.join(", ") });
     let _ = writeln!(s, "  rows: {} used, {} left out; R² {}, adjusted R² {}", f.n, f.n_dropped, short(f.r_squared, 4), short(f.adj_r_squared, 4));
 
+    for w in &f.warnings {
+        let _ = writeln!(s, "  note: {w}");
+    }
+
     let _ = writeln!(s, "\nWhat the checks found, most important first");
     for x in &c.findings {
         let tag = match x.severity {

@@ -645,7 +645,13 @@ fn nan_and_inf_cells() {
     let (_, text, _) = cli(&["fit", p, "--response", "y", "--terms", "x", "--weights", "w"]);
     assert!(text.contains("rows: 6 used, 4 left out (missing value in x: 3; missing value in w: 1)"), "{text}");
 
-    for (cell, shown) in [("inf", "inf"), ("-Infinity", "-Infinity"), ("1e999", "1e999"), ("nan", "nan")] {
+    // Lower-case nan and NULL, as common data tools write a missing number, are missing.
+    for marker in ["nan", "NULL"] {
+        let t = read_csv(format!("y,x\n1.1,1\n2.3,{marker}\n2.9,3\n4.2,4\n4.8,5\n").as_bytes()).unwrap();
+        let r = fit_of(&t, "y", "x").unwrap().report;
+        assert_eq!((r.n, r.dropped[0].first_rows.clone()), (4, vec![3]), "{marker}");
+    }
+    for (cell, shown) in [("inf", "inf"), ("-Infinity", "-Infinity"), ("1e999", "1e999")] {
         let bad = format!("y,x\n1.1,1\n2.3,{cell}\n2.9,3\n4.2,4\n4.8,5\n");
         let path = file(&format!("bad-{}.csv", cell.trim_start_matches('-')), &bad);
         let e = fit_of(&read_csv(bad.as_bytes()).unwrap(), "y", "x").unwrap_err();

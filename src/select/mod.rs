@@ -233,8 +233,10 @@ impl std::fmt::Display for SelectError {
             SelectError::Fit(e) => e.fmt(f),
             SelectError::TooFewRows { rows, coefficients } => write!(
                 f,
-                "The full set of candidates has {coefficients} coefficients but there are only {rows} complete rows; \
-                 offer fewer candidates or use more rows."
+                "The full set of candidates has {coefficients} coefficients but there {} {rows} complete {}; \
+                 offer fewer candidates or use more rows.",
+                if *rows == 1 { "is only" } else { "are only" },
+                if *rows == 1 { "row" } else { "rows" }
             ),
             SelectError::Cancelled => write!(f, "The search was stopped before it finished."),
         }
