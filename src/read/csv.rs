@@ -13,15 +13,20 @@ use crate::table::Table;
 
 /// Reads comma-separated (or sniffed) bytes with default options.
 pub fn read_csv(bytes: &[u8]) -> Result<Table, ReadError> {
-    read_delimited(bytes, &ReadOptions::default(), Format::Text).map(|l| l.table)
+    read_delimited(bytes, &ReadOptions::default(), Format::Text, &mut |_| true).map(|l| l.table)
 }
 
 /// Records looked at to find the delimiter, the decimal mark and the header.
 const SNIFF_RECORDS: usize = 2000;
 
+/// Records between two progress reports.
+pub const PROGRESS_EVERY: usize = 8192;
+
 /// Reads delimited text. `format` is `Text` for files and `Paste` for a
 /// block copied from a spreadsheet (tab-separated).
-pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format) -> Result<Loaded, ReadError> {
+/// `progress` hears the share done every [`PROGRESS_EVERY`] records (the
+/// first pass is the first half).
+pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format, progress: super::Progress) -> Result<Loaded, ReadError> {
     let limits = options.limits;
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
         return Err(ReadError::Empty);
@@ -82,7 +87,14 @@ pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format) -> Re
     // Pass 1: shape and types.
     let mut scans = vec![ColumnScan::default(); full_width];
     let mut n_rows = 0usize;
-    for rec in Records::new(text, delim) {
+    let total = text.len().max(1) as f64;
+    let mut records = Records::new(text, delim);
+    let mut seen = 0usize;
+    while let Some(rec) = records.next() {
+        seen += 1;
+        if seen % PROGRESS_EVERY == 0 && !progress(0.5 * records.position() as f64 / total) {
+            return Err(ReadError::Stopped);
+        }
         let rec = rec?;
         if rec.line <= header_line || rec.is_blank() {
             continue;
@@ -114,7 +126,13 @@ pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format) -> Re
 
     // Pass 2: values.
     let mut source_rows = Vec::with_capacity(n_rows);
-    for rec in Records::new(text, delim) {
+    let mut records = Records::new(text, delim);
+    let mut seen = 0usize;
+    while let Some(rec) = records.next() {
+        seen += 1;
+        if seen % PROGRESS_EVERY == 0 && !progress(0.5 + 0.5 * records.position() as f64 / total) {
+            return Err(ReadError::Stopped);
+        }
         let rec = rec?;
         if rec.line <= header_line || rec.is_blank() {
             continue;
@@ -173,7 +191,7 @@ mod tests {
     use crate::table::ColumnData;
 
     fn load(input: &str) -> Loaded {
-        read_delimited(input.as_bytes(), &ReadOptions::default(), Format::Text).unwrap_or_else(|e| panic!("{input:?}: {e}"))
+        read_delimited(input.as_bytes(), &ReadOptions::default(), Format::Text, &mut |_| true).unwrap_or_else(|e| panic!("{input:?}: {e}"))
     }
 
     fn check(input: &str, expected_names: &[&str], expected_rows: &[usize]) -> Table {
@@ -246,7 +264,7 @@ mod tests {
 
     #[test]
     fn refusals_name_the_line() {
-        let r = |s: &[u8]| read_delimited(s, &ReadOptions::default(), Format::Text).map(|_| ());
+        let r = |s: &[u8]| read_delimited(s, &ReadOptions::default(), Format::Text, &mut |_| true).map(|_| ());
         assert_eq!(r(b""), Err(ReadError::Empty));
         assert_eq!(r(b"a,b\n"), Err(ReadError::HeaderOnly));
         assert_eq!(r(b"a,b\n1,2\n3,4,5\n"), Err(ReadError::Ragged { line: 3, expected: 2, found: 3 }));
@@ -257,7 +275,27 @@ mod tests {
 
     #[test]
     fn pasted_blocks_are_tab_separated_with_decimal_commas() {
-        let l = read_delimited(b"x\ty\r\n1,5\t2\r\n2,5\t3\r\n", &ReadOptions::default(), Format::Paste).unwrap();
+        let l = read_delimited(b"x\ty\r\n1,5\t2\r\n2,5\t3\r\n", &ReadOptions::default(), Format::Paste, &mut |_| true).unwrap();
         assert_eq!(l.table.columns[0].data, ColumnData::Numeric(vec![1.5, 2.5]));
+    }
+
+    #[test]
+    fn progress_rises_through_both_passes_and_can_stop_the_reading() {
+        let mut text = String::from("x,y\n");
+        for i in 0..(3 * PROGRESS_EVERY) {
+            text.push_str(&format!("{i},{}\n", i % 7));
+        }
+        let mut seen = Vec::new();
+        let l = read_delimited(text.as_bytes(), &ReadOptions::default(), Format::Text, &mut |p| {
+            seen.push(p);
+            true
+        })
+        .unwrap();
+        assert_eq!(l.table.n_rows(), 3 * PROGRESS_EVERY);
+        assert!(seen.len() >= 4, "{seen:?}");
+        assert!(seen.windows(2).all(|w| w[0] < w[1]), "{seen:?}");
+        assert!(seen[0] > 0.0 && *seen.last().unwrap() <= 1.0 && seen.iter().any(|&p| p > 0.5), "{seen:?}");
+        let e = read_delimited(text.as_bytes(), &ReadOptions::default(), Format::Text, &mut |p| p < 0.5).unwrap_err();
+        assert_eq!(e, ReadError::Stopped);
     }
 }

@@ -98,12 +98,15 @@ pub enum ReadError {
     TooManyCells { limit: usize },
     /// A workbook that would unpack to more than [`Limits::max_unzipped_bytes`].
     TooLargeUnpacked { declared: u64, limit: u64 },
+    /// The progress callback asked to stop.
+    Stopped,
 }
 
 impl fmt::Display for ReadError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             ReadError::Empty => write!(f, "The file is empty: there is no header row and no data."),
+            ReadError::Stopped => write!(f, "Reading was stopped before it finished; the data loaded before are unchanged."),
             ReadError::HeaderOnly => write!(f, "The file has a header row but no data rows."),
             ReadError::Ragged { line, expected, found } => write!(
                 f,
@@ -154,16 +157,37 @@ pub fn is_workbook(bytes: &[u8]) -> bool {
 
 /// Reads a workbook or delimited text.
 pub fn read_table(bytes: &[u8], options: &ReadOptions) -> Result<Loaded, ReadError> {
-    if is_workbook(bytes) {
-        workbook::read_workbook(bytes, options, Format::Workbook)
-    } else {
-        csv::read_delimited(bytes, options, Format::Text)
-    }
+    read_table_progress(bytes, options, &mut |_| true)
 }
 
 /// Reads a block of cells pasted from a spreadsheet.
 pub fn read_paste(text: &str, options: &ReadOptions) -> Result<Loaded, ReadError> {
-    csv::read_delimited(text.as_bytes(), options, Format::Paste)
+    csv::read_delimited(text.as_bytes(), options, Format::Paste, &mut |_| true)
+}
+
+/// Called with the share of the reading done (0 to 1); returning false
+/// stops the reading with [`ReadError::Stopped`].
+pub type Progress<'a> = &'a mut dyn FnMut(f64) -> bool;
+
+/// As [`read_table`], reporting progress: delimited text every few
+/// thousand records of each of its two passes; a workbook only before and
+/// after its sheet is parsed (the library parses a sheet in one call).
+pub fn read_table_progress(bytes: &[u8], options: &ReadOptions, progress: Progress) -> Result<Loaded, ReadError> {
+    if is_workbook(bytes) {
+        if !progress(0.0) {
+            return Err(ReadError::Stopped);
+        }
+        let loaded = workbook::read_workbook(bytes, options, Format::Workbook)?;
+        progress(1.0);
+        Ok(loaded)
+    } else {
+        csv::read_delimited(bytes, options, Format::Text, progress)
+    }
+}
+
+/// As [`read_paste`], reporting progress.
+pub fn read_paste_progress(text: &str, options: &ReadOptions, progress: Progress) -> Result<Loaded, ReadError> {
+    csv::read_delimited(text.as_bytes(), options, Format::Paste, progress)
 }
 
 /// The sheets of a workbook; empty for text.

@@ -70,6 +70,11 @@ impl<'a> Records<'a> {
     pub fn new(text: &'a str, delim: u8) -> Records<'a> {
         Records { text, pos: 0, line: 1, delim }
     }
+
+    /// The byte offset of the next record.
+    pub fn position(&self) -> usize {
+        self.pos
+    }
 }
 
 impl<'a> Iterator for Records<'a> {
