@@ -296,10 +296,16 @@ pub fn predict(fitted: &Fitted, spec: &ModelSpec, training: &Table, new: &Table,
     }
     let flagged = predictions.iter().filter(|p| p.extrapolation).count();
     if flagged > 0 {
-        notes.push(format!(
-            "{flagged} of the {} rows lie outside what the data cover; their predictions are extrapolations and may be far off.",
-            predictions.len()
-        ));
+        notes.push(if predictions.len() == 1 {
+            "This case lies outside what the data cover; its prediction is an extrapolation and may be far off.".to_string()
+        } else if flagged == 1 {
+            format!("1 of the {} rows lies outside what the data cover; its prediction is an extrapolation and may be far off.", predictions.len())
+        } else {
+            format!(
+                "{flagged} of the {} rows lie outside what the data cover; their predictions are extrapolations and may be far off.",
+                predictions.len()
+            )
+        });
     }
     Ok(PredictReport {
         response: rep.response.clone(),

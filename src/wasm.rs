@@ -497,3 +497,24 @@ pub fn model_inputs(bytes: &[u8], request: &str) -> String {
 pub fn panic_for_test() -> String {
     panic!("a panic on purpose, from the test hook panic_for_test")
 }
+
+/// The codings and transforms of the model of a fit request, in plain
+/// words (`crate::export::term_choices`), for the report the page asks
+/// for. Returns `{ok: ["…", …]}`.
+#[wasm_bindgen]
+pub fn model_choices(request: &str) -> String {
+    let req: FitRequest = match serde_json::from_str(request) {
+        Ok(r) => r,
+        Err(e) => return error("request", &format!("The request is not valid: {e}")),
+    };
+    let response = match parse_term(&req.response) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the response: {e}")),
+    };
+    let terms = match parse_terms(&req.terms) {
+        Ok(t) => t,
+        Err(e) => return error("terms", &format!("In the terms: {e}")),
+    };
+    let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows };
+    ok(&crate::export::term_choices(&spec))
+}

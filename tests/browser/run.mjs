@@ -7,12 +7,12 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { createRequire } from 'node:module';
-import { execFileSync } from 'node:child_process';
-import { existsSync, mkdirSync, readFileSync, readdirSync, statSync } from 'node:fs';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, readFileSync, readdirSync, statSync, truncateSync, writeFileSync } from 'node:fs';
 import { isDeepStrictEqual } from 'node:util';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
-import { randomBytes } from 'node:crypto';
+import { createHash, randomBytes } from 'node:crypto';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const root = resolve(here, '..', '..');
@@ -87,12 +87,99 @@ const dataRequests = []; // data: URLs, kept apart (not network)
 const dialogs = [];
 const pageErrors = [];
 const workers = [];
+const routed = []; // every URL that reached the network layer (the route below), allowed or not
+const refused = []; // of them, those the route refused: anything but the page itself
+
+/**
+ * Installed in every page of the session before its own scripts run: it
+ * records any write to localStorage, sessionStorage, IndexedDB, the Cache
+ * API or cookies, and every Content-Security-Policy violation the page
+ * reports. The CSP has no 'unsafe-eval', so any use of eval, the Function
+ * constructor or a string timer by the page's code throws and is reported
+ * as a violation of script-src with the blocked URI "eval"; that report is
+ * the eval hook. (Replacing window.eval itself would break the test
+ * driver, which evaluates through it; its own evaluations bypass the CSP
+ * and are not reported.) The tests read the records through
+ * window.__plumblineWatch.
+ */
+function watchPage() {
+  const seen = { storage: [], violations: [] };
+  Object.defineProperty(window, '__plumblineWatch', { value: seen });
+  const note = (what) => seen.storage.push(what);
+  for (const m of ['setItem', 'removeItem', 'clear']) {
+    const real = Storage.prototype[m];
+    Storage.prototype[m] = function storageHook(...args) {
+      note(`${this === window.sessionStorage ? 'sessionStorage' : 'localStorage'}.${m}(${args.map(String).join(', ').slice(0, 60)})`);
+      return real.apply(this, args);
+    };
+  }
+  if (window.indexedDB) {
+    const realOpen = IDBFactory.prototype.open;
+    IDBFactory.prototype.open = function openHook(...args) {
+      note(`indexedDB.open(${String(args[0])})`);
+      return realOpen.apply(this, args);
+    };
+  }
+  if (window.caches) {
+    const realCacheOpen = CacheStorage.prototype.open;
+    CacheStorage.prototype.open = function cacheHook(...args) {
+      note(`caches.open(${String(args[0])})`);
+      return realCacheOpen.apply(this, args);
+    };
+  }
+  const cookie = Object.getOwnPropertyDescriptor(Document.prototype, 'cookie');
+  if (cookie && cookie.set) {
+    Object.defineProperty(Document.prototype, 'cookie', {
+      get() { return cookie.get.call(this); },
+      set(v) { note(`document.cookie = ${String(v).slice(0, 60)}`); cookie.set.call(this, v); },
+      configurable: true,
+    });
+  }
+  document.addEventListener('securitypolicyviolation', (e) => seen.violations.push(`${e.effectiveDirective}: ${e.blockedURI}`));
+}
+
+/** What the watch of the current page has recorded, and what storage holds now. */
+async function watched() {
+  return page.evaluate(async () => {
+    const w = window.__plumblineWatch;
+    const dbs = indexedDB.databases ? (await indexedDB.databases()).map((d) => d.name) : [];
+    let cacheKeys = [];
+    try { cacheKeys = window.caches ? await caches.keys() : []; } catch (_) { cacheKeys = []; }
+    return {
+      installed: !!w,
+      evals: w ? w.violations.filter((v) => v.endsWith(': eval')) : [],
+      storage: w ? w.storage : [],
+      violations: w ? w.violations : [],
+      localStorage: localStorage.length,
+      sessionStorage: sessionStorage.length,
+      indexedDB: dbs,
+      caches: cacheKeys,
+      cookie: document.cookie,
+    };
+  });
+}
+
+/** Asserts that the page has used no eval, stored nothing and broken no CSP rule. */
+async function assertWatchClean(what) {
+  const w = await watched();
+  assert.ok(w.installed, `${what}: the watch is installed`);
+  assert.deepEqual(w.evals, [], `${what}: no eval, Function constructor or string timer (each would be refused by the CSP and reported)`);
+  assert.deepEqual(w.violations, [], `${what}: no Content-Security-Policy violation`);
+  assert.deepEqual(w.storage, [], `${what}: nothing written to storage`);
+  assert.equal(w.localStorage, 0, `${what}: localStorage is empty`);
+  assert.equal(w.sessionStorage, 0, `${what}: sessionStorage is empty`);
+  assert.deepEqual(w.indexedDB, [], `${what}: no IndexedDB database`);
+  assert.deepEqual(w.caches, [], `${what}: no Cache API cache`);
+  assert.equal(w.cookie, '', `${what}: no cookie`);
+}
 
 function recordRequest(req) {
   if (seenRequests.has(req)) return;
   seenRequests.add(req);
   const url = req.url();
-  if (url.startsWith('data:')) dataRequests.push(url.slice(0, 60));
+  // data: URLs (the worker) and blob: URLs (the page's own downloads) are
+  // inside the page, not network; they are kept apart.
+  if (url.startsWith('data:') || url.startsWith('blob:')) dataRequests.push(url.slice(0, 60));
   else requests.push(url);
 }
 
@@ -216,6 +303,17 @@ before(async () => {
   });
   context = await browser.newContext({ viewport: { width: 1366, height: 768 } });
   context.on('request', recordRequest);
+  await context.addInitScript(watchPage);
+  // Everything that reaches the network layer passes here: the page itself
+  // is let through, anything else is refused and kept (data: URLs do not
+  // come here; they are not network).
+  await context.route('**/*', (route) => {
+    const url = route.request().url();
+    routed.push(url);
+    if (url.split('#')[0] === pageUrl) return route.continue();
+    refused.push(url);
+    return route.abort('blockedbyclient');
+  });
   page = await context.newPage();
   page.on('request', recordRequest);
   page.on('worker', (w) => {
@@ -269,8 +367,120 @@ test('the CSP meta is there, with connect-src \'none\' and no remote source', { 
     .map((e) => e.getAttribute('src') || e.getAttribute('href'))
     .filter((u) => !(u.startsWith('#') || u.startsWith('data:'))));
   assert.deepEqual(external, [], 'no element loads anything from elsewhere');
+  assertNoEvalInSource();
+});
+
+/** The page's scripts, the worker's too (inlined as a base64 data: URL), hold no eval or Function constructor. */
+function assertNoEvalInSource() {
   const html = readFileSync(pagePath, 'utf8');
-  assert.doesNotMatch(html.replace(/<script type="application\/octet-stream"[^>]*>[^<]*<\/script>/, ''), /\beval\(|new Function\(/, 'no eval');
+  const workerUrl = /<script type="text\/plain" id="plumbline-worker">data:text\/javascript;base64,([^<]*)<\/script>/.exec(html);
+  assert.ok(workerUrl, 'the worker is inlined as a base64 data: URL');
+  const workerSrc = Buffer.from(workerUrl[1], 'base64').toString('utf8');
+  assert.match(workerSrc, /self\.onmessage/, 'the worker source decodes');
+  const pageSrc = html.replace(/<script type="application\/octet-stream"[^>]*>[^<]*<\/script>/, '').replace(workerUrl[0], '');
+  const forbidden = /\beval\s*\(|\bnew\s+Function\s*\(|\bFunction\s*\(\s*['"`]|\bset(?:Timeout|Interval)\s*\(\s*['"`]/;
+  for (const [what, src] of [['the page', pageSrc], ['the worker', workerSrc]]) {
+    const m = forbidden.exec(src);
+    assert.equal(m, null, `${what} has no eval, Function constructor or string timer${m ? ` (found "${src.slice(Math.max(0, m.index - 40), m.index + 40)}")` : ''}`);
+  }
+}
+
+test('control: the watch sees an eval and a storage write when there is one', { timeout: 30000 }, async () => {
+  const ctl = await browser.newContext();
+  try {
+    await ctl.addInitScript(watchPage);
+    const p = await ctl.newPage();
+    await p.goto(pageUrl);
+    const w = await p.evaluate(async () => {
+      // As the page's own code would: from a script element, after an await
+      // (what the test driver runs directly is exempt from the CSP until then).
+      await new Promise((r) => setTimeout(r, 0));
+      const script = document.createElement('script');
+      script.textContent = "try { window.controlEval = eval('1 + 1'); } catch (e) { window.controlEval = e.name; }";
+      document.body.append(script);
+      localStorage.setItem('control', '1');
+      localStorage.removeItem('control');
+      indexedDB.open('control-db');
+      await new Promise((r) => setTimeout(r, 300));
+      return { ...window.__plumblineWatch, evalResult: window.controlEval };
+    });
+    assert.equal(w.evalResult, 'EvalError', 'the CSP refuses the eval');
+    assert.deepEqual(w.violations, ['script-src: eval'], 'the eval is reported');
+    assert.deepEqual(w.storage, ['localStorage.setItem(control, 1)', 'localStorage.removeItem(control)', 'indexedDB.open(control-db)']);
+  } finally {
+    await ctl.close();
+  }
+});
+
+test('the CSP forbids every connection, from the page and from a worker, and eval', { timeout: 30000 }, async () => {
+  // A context of its own, so that these attempts do not count against the session.
+  const ctl = await browser.newContext();
+  const reached = [];
+  await ctl.route('**/*', (route) => {
+    const url = route.request().url();
+    if (url.startsWith('file:')) return route.continue();
+    reached.push(url);
+    return route.abort('blockedbyclient');
+  });
+  try {
+    const p = await ctl.newPage();
+    await p.goto(pageUrl);
+    const out = await p.evaluate(async () => {
+      const violations = [];
+      document.addEventListener('securitypolicyviolation', (e) => violations.push(`${e.effectiveDirective} ${e.blockedURI}`));
+      const tried = {};
+      const attempt = async (name, f) => {
+        try { tried[name] = `allowed: ${await f()}`; } catch (e) { tried[name] = `refused: ${e.name}`; }
+      };
+      await attempt('fetch', () => fetch('http://127.0.0.1:9/fetch').then((r) => r.status));
+      await attempt('xhr', () => new Promise((resolve, reject) => {
+        const x = new XMLHttpRequest();
+        x.onload = () => resolve(x.status);
+        x.onerror = () => reject(new TypeError('XHR failed'));
+        x.open('GET', 'http://127.0.0.1:9/xhr');
+        x.send();
+      }));
+      await attempt('websocket', () => new Promise((resolve, reject) => {
+        const ws = new WebSocket('ws://127.0.0.1:9/ws');
+        ws.onopen = () => resolve('open');
+        ws.onerror = () => reject(new TypeError('WebSocket failed'));
+      }));
+      await attempt('eventsource', () => new Promise((resolve, reject) => {
+        const es = new EventSource('http://127.0.0.1:9/es');
+        es.onopen = () => resolve('open');
+        es.onerror = () => { es.close(); reject(new TypeError('EventSource failed')); };
+      }));
+      // sendBeacon says true either way; the CSP report and the route below tell.
+      navigator.sendBeacon('http://127.0.0.1:9/beacon', 'x');
+      await attempt('image', () => new Promise((resolve, reject) => {
+        const img = new Image();
+        img.onload = () => resolve('loaded');
+        img.onerror = () => reject(new TypeError('image failed'));
+        img.src = 'http://127.0.0.1:9/img.png';
+      }));
+      await attempt('import', () => import('http://127.0.0.1:9/module.js').then(() => 'imported'));
+      // eslint-disable-next-line no-eval
+      await attempt('eval', () => eval('1 + 1'));
+      await attempt('Function', () => new Function('return 1')());
+      await attempt('worker fetch', () => new Promise((resolve, reject) => {
+        const code = "fetch('http://127.0.0.1:9/worker').then((r) => postMessage('status ' + r.status), (e) => postMessage('refused ' + e.name));";
+        const w = new Worker(`data:text/javascript,${encodeURIComponent(code)}`, { type: 'module' });
+        w.onmessage = (e) => (String(e.data).startsWith('refused') ? reject(new TypeError(e.data)) : resolve(e.data));
+        w.onerror = () => reject(new TypeError('worker error'));
+      }));
+      await new Promise((r) => setTimeout(r, 300));
+      return { tried, violations };
+    });
+    for (const [name, result] of Object.entries(out.tried)) assert.match(result, /^refused/, `${name}: ${result}`);
+    const directives = out.violations.map((v) => v.split(' ')[0]);
+    assert.deepEqual(out.violations.filter((v) => v.startsWith('connect-src')).map((v) => v.split('/').pop()).sort(), ['beacon', 'es', 'fetch', 'ws', 'xhr'],
+      `fetch, XHR, WebSocket, EventSource and a beacon are refused by connect-src (${out.violations.join('; ')})`);
+    assert.ok(directives.includes('img-src') && directives.some((d) => d.startsWith('script-src')), out.violations.join('; '));
+    assert.equal(out.violations.filter((v) => v.endsWith(' eval')).length, 2, 'eval and Function are refused by the CSP');
+  } finally {
+    await ctl.close();
+  }
+  assert.deepEqual(reached, [], 'no attempt reached the network');
 });
 
 test('the demo opens with one click and its fit equals the native CLI', { timeout: 60000 }, async () => {
@@ -341,8 +551,9 @@ test('Copy table copies tab-separated values with every digit', { timeout: 30000
   const expected = await page.evaluate(() => window.plumblineTest.copiedText());
   const clip = await page.evaluate(() => navigator.clipboard.readText());
   assert.equal(clip, expected, 'the clipboard holds the table text');
+  // The text is the wasm's export_tsv of the result the page shows (the headings are its own).
   const lines = clip.trimEnd().split('\n').map((l) => l.split('\t'));
-  assert.deepEqual(lines[0], ['term', 'estimate', 'standard error', 't', 'p-value', 'low (95%)', 'high (95%)']);
+  assert.deepEqual(lines[0], ['term', 'estimate', 'standard error', 't', 'p-value', 'interval low', 'interval high', 'standardized', 'aliased']);
   // Every digit the page holds is copied, and they are the CLI's numbers.
   const rows = await coefTableFromPage();
   const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
@@ -350,7 +561,7 @@ test('Copy table copies tab-separated values with every digit', { timeout: 30000
   cli.coefficients.forEach((c, i) => {
     assert.equal(lines[i + 1][0], c.term);
     COEF_FIELDS.forEach((f, j) => {
-      assert.equal(lines[i + 1][j + 1], rows[i].cells[j].full, `${c.term} ${f} copied in full`);
+      assert.equal(Number(lines[i + 1][j + 1]), Number(rows[i].cells[j].full), `${c.term} ${f} copied in full`);
       assert.ok(relClose(Number(lines[i + 1][j + 1]), c[f], 1e-9), `${c.term} ${f} copied: ${lines[i + 1][j + 1]}, CLI ${c[f]}`);
     });
   });
@@ -792,6 +1003,133 @@ test('when the worker reports a panic, the page shows it and starts a fresh work
   assert.ok(await page.isHidden('#model-message'));
 });
 
+test('a real panic inside the wasm becomes a message; a fresh worker takes over with the data and choices kept', { timeout: 60000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  await page.fill('#terms', 'log(floor_area_m2), cat(hvac_type)');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(4);
+  const workersBefore = workers.length;
+  const e = await page.evaluate(() => window.plumblineTest.realPanic());
+  assert.equal(e && e.kind, 'panic', 'the request is rejected as a panic');
+  assert.match(e.message, /^plumbline stopped on an internal error, which is a bug: .*a panic on purpose, from the test hook panic_for_test/s,
+    'the message is the panic hook\'s (last_panic), not a bare trap');
+  const msg = await visibleText('#model-message');
+  assert.ok(msg.startsWith(e.message), msg);
+  assert.match(msg, /A fresh calculation worker has been started\. Your data and choices are still here/);
+  for (let i = 0; i < 50 && workers.length === workersBefore; i++) await page.waitForTimeout(100);
+  assert.equal(workers.length, workersBefore + 1, 'a fresh worker was started');
+  assert.match(await page.textContent('#data-facts'), /240 rows of data/);
+  assert.equal(await page.inputValue('#response-column'), 'energy_mwh');
+  assert.equal(await page.inputValue('#response-transform'), 'log');
+  assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(hvac_type)');
+  await assertCoefRows(4);
+  await afterFit(() => page.click('#fit-button'));
+  assert.ok(await page.isHidden('#model-message'), 'the message is cleared by the good fit');
+  assert.deepEqual(pageErrors, [], 'no uncaught script error');
+});
+
+test('a file larger than the page reads is refused before it is read, and the tab goes on', { timeout: 60000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  const limit = await page.evaluate(() => window.plumblineTest.maxFileBytes());
+  assert.equal(limit, 256 * 1024 * 1024, 'the limit the README states');
+  // A sparse file on disk: 256 MiB and one byte, through the real file input.
+  const huge = join(shots, 'too-big.csv');
+  writeFileSync(huge, '');
+  truncateSync(huge, limit + 1);
+  await page.setInputFiles('#file-input', huge);
+  const msg = await visibleText('#data-message');
+  assert.equal(msg, '"too-big.csv" is 268,435,457 bytes, more than the 256 MiB (268,435,456 bytes) this page reads, so it was not opened. '
+    + 'Save the columns you need, or fewer rows, to a smaller file and open that; the command-line tool reads larger files. '
+    + 'The data already open ("building-energy.csv (invented demo data)") are still loaded.');
+  truncateSync(huge, 3 * limit);
+  await page.setInputFiles('#file-input', huge);
+  await page.locator('#data-message').filter({ hasText: '768.0 MiB, more than the 256 MiB this page reads' }).waitFor({ timeout: 5000 });
+  // The same check for a file of new cases.
+  await page.setInputFiles('#cases-file', huge);
+  await page.locator('#predict-message').filter({ hasText: '"too-big.csv" is 768.0 MiB, more than the 256 MiB' }).waitFor({ timeout: 5000 });
+  truncateSync(huge, 0);
+  // The tab lives: the data, the choices and the result are there, and it fits.
+  assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data/);
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS);
+  await assertCoefRows(12);
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(12);
+  assert.deepEqual(pageErrors, []);
+});
+
+test('the bad-input corpus through the file input: a plain message, and the data and choices already there stay', { timeout: 120000 }, async () => {
+  const badDir = join(root, 'tests', 'data', 'bad');
+  const expected = JSON.parse(readFileSync(join(badDir, 'expected.json'), 'utf8'));
+  const names = Object.keys(expected).sort();
+  assert.ok(names.length >= 11, `the corpus lists its files (${names.length})`);
+  const noJargon = /panic|undefined|NaN|null|\[object|Error:|at line \d+ column|unwrap|RuntimeError|stack/;
+  await openFresh();
+  /** The demo loaded, with choices of the user's own, fitted. */
+  const setUp = async () => {
+    await afterFit(() => page.click('#demo-button'));
+    await page.selectOption('#response-transform', 'sqrt');
+    await page.fill('#terms', 'log(floor_area_m2), cat(climate_zone)');
+    await page.fill('#level', '90');
+    await afterFit(() => page.click('#fit-button'));
+    await assertCoefRows(6);
+  };
+  const choicesKept = async (name) => {
+    assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data, 10 columns/, `${name}: the data stay`);
+    assert.equal(await page.locator('#preview tbody tr').count(), 10, `${name}: the preview stays`);
+    assert.equal(await page.inputValue('#response-column'), 'energy_mwh', `${name}: the response stays`);
+    assert.equal(await page.inputValue('#response-transform'), 'sqrt', `${name}: its scale stays`);
+    assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone)', `${name}: the terms stay`);
+    assert.equal(await page.inputValue('#level'), '90', `${name}: the level stays`);
+    await assertCoefRows(6);
+  };
+  await setUp();
+  const seen = [];
+  for (const name of names) {
+    const want = expected[name];
+    const bytes = readFileSync(join(badDir, name));
+    const cli = spawnSync(cliPath, ['profile', join(badDir, name), '--json'], { encoding: 'utf8' });
+    if (want.outcome === 'refuse') {
+      assert.equal(cli.status, 1, `${name}: the CLI refuses it with exit code 1`);
+      const before = await page.evaluate(() => window.plumblineTest.inspectsDone());
+      await page.setInputFiles('#file-input', { name, mimeType: 'application/octet-stream', buffer: bytes });
+      await page.waitForFunction((n) => window.plumblineTest.inspectsDone() > n, before, { timeout: 15000 });
+      const msg = await visibleText('#data-message');
+      assert.ok(msg.startsWith(`"${name}" could not be opened: `), `${name}: ${msg}`);
+      assert.ok(msg.endsWith('The data already open ("building-energy.csv (invented demo data)") are still loaded.'), `${name}: ${msg}`);
+      assert.doesNotMatch(msg, noJargon, `${name}: plain words (${msg})`);
+      // The CLI's own words for the same bytes (its message names the path).
+      const cliWords = cli.stderr.trim().replace(/^Could not read "[^"]*":\s*/, '');
+      assert.ok(msg.includes(cliWords), `${name}: the page says what the CLI says (${cliWords})`);
+      if (want.line > 1) assert.match(msg, new RegExp(`\\b(?:[Ll]ine|row) ${want.line}\\b`), `${name}: the line is named`);
+      await choicesKept(name);
+      seen.push(`${name}: refused`);
+    } else {
+      assert.equal(cli.status, 0, `${name}: the CLI reads it`);
+      await page.setInputFiles('#file-input', { name, mimeType: 'text/csv', buffer: bytes });
+      await page.locator('#data-facts').filter({ hasText: name }).waitFor({ timeout: 15000 });
+      assert.ok(await page.isHidden('#data-message'), `${name}: no problem shown`);
+      const facts = await page.textContent('#data-facts');
+      assert.ok(facts.includes(`${plural(want.rows, 'row')} of data, ${plural(want.columns.length, 'column')}.`), `${name}: ${facts}`);
+      assert.deepEqual(await page.$$eval('#preview thead th', (ths) => ths.slice(1).map((t) => t.textContent)), want.columns, `${name}: its columns`);
+      const warnings = await page.$$eval('#read-warnings li', (lis) => lis.map((l) => l.textContent));
+      const cliWarnings = JSON.parse(cli.stdout).load.warnings;
+      assert.deepEqual(warnings, cliWarnings, `${name}: the reader's warnings, in its words`);
+      assert.equal(warnings.length > 0, want.warnings.length > 0, `${name}: warned when the corpus expects a warning`);
+      assert.equal(await page.isVisible('#read-warnings-block'), warnings.length > 0);
+      for (const w of warnings) assert.doesNotMatch(w, noJargon, `${name}: plain words (${w})`);
+      for (const [column, kind] of Object.entries(want.kinds || {})) {
+        assert.equal(await columnRow(column).locator('select').inputValue(), kind, `${name}: ${column} is ${kind}`);
+      }
+      seen.push(`${name}: loaded, ${plural(warnings.length, 'warning')}`);
+      await setUp();
+    }
+  }
+  console.log(`  bad-input corpus through the page: ${seen.join('; ')}`);
+  await shot('28-bad-input-kept');
+});
+
 test('the page works from the keyboard, and every control has a label', { timeout: 60000 }, async () => {
   await openFresh();
   const unlabelled = await page.$$eval('input, select, textarea, button', (els) => els
@@ -987,6 +1325,10 @@ test('Stop during a long search ends the worker, starts a fresh one and keeps th
   assert.ok((await page.locator('#comparison-table tbody tr').count()) >= 1);
 });
 
+function plural(k, word) {
+  return `${k} ${k === 1 ? word : `${word}s`}`;
+}
+
 function splitCount(text) {
   return text.split(',').map((t) => t.trim()).filter(Boolean).length;
 }
@@ -1143,7 +1485,504 @@ test('a row chosen in the Checks can be left out of the fit, and taken back in',
   assert.ok(await page.isHidden('#excluded-checks') && await page.isHidden('#excluded-model'), 'nothing left out and nothing to undo: the list goes');
 });
 
-test('over the whole session, nothing was requested but the page', { timeout: 10000 }, () => {
+function cliPredict(file, newFile, { response, terms }) {
+  return JSON.parse(execFileSync(cliPath, ['predict', file, '--response', response, '--terms', terms, '--new', newFile, '--json'], { encoding: 'utf8', maxBuffer: 64 << 20 }));
+}
+
+/** Runs a page action that starts a prediction and waits until the page has its answer. */
+async function afterPredict(action) {
+  const before = await page.evaluate(() => window.plumblineTest.predictsDone());
+  await action();
+  await page.waitForFunction((n) => window.plumblineTest.predictsDone() > n, before, { timeout: 20000 });
+}
+
+/** The predictions table: per body row, its header and the full values of its numbers. */
+async function predictionsFromPage() {
+  return page.$$eval('#predictions-table tbody tr:not(.reason-row)', (trs) => trs.map((tr) => {
+    const next = tr.nextElementSibling;
+    return {
+      row: tr.querySelector('th') ? tr.querySelector('th').textContent : null,
+      full: [...tr.querySelectorAll('td.num')].map((td) => td.dataset.full),
+      shown: [...tr.querySelectorAll('td.num')].map((td) => td.textContent),
+      note: (tr.querySelector('td.row-note, td.row-problem') || { textContent: '' }).textContent,
+      reasons: next && next.classList.contains('reason-row') ? next.textContent : null,
+      className: tr.className,
+    };
+  }));
+}
+
+const PRED_FIELDS = ['estimate', 'ci_low', 'ci_high', 'pi_low', 'pi_high'];
+const NEW_CASES_CSV = 'building_id,climate_zone,floor_area_m2,occupants,building_age,mean_outdoor_temp_c,hvac_type,retrofit\n'
+  + 'N-1,1,2436,101,80,17.5,district heat,0\n'
+  + 'N-2,2,2000000,50,10,10,heat pump,1\n'
+  + 'N-3,3,1500,,20,12,gas boiler,0\n'
+  + 'N-4,4,1500,40,20,12,steam,0\n'
+  + 'N-5,5,1500,abc,20,12,gas boiler,0\n';
+
+/** A page row of predictions equals the CLI's prediction, on both scales, to a relative 1e-9. */
+function assertPredictionRow(got, want, what) {
+  const expected = [...PRED_FIELDS.map((f) => want.original[f]), ...PRED_FIELDS.map((f) => want[f]), want.leverage];
+  assert.equal(got.full.length, expected.length, `${what}: every number is there`);
+  got.full.forEach((v, j) => assert.ok(relClose(fromFull(v), expected[j], 1e-9), `${what} number ${j + 1}: page ${v}, CLI ${expected[j]}`));
+}
+
+test('Predict: the one-case form and a file of new cases give the CLI\'s predictions, intervals, flags and reasons', { timeout: 90000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  assert.ok(await page.isVisible('#predict'), 'the Predict step is shown after a fit');
+  // One control per column the model reads, in the order of the terms: a
+  // list of the model's own levels for a category, a number box otherwise.
+  const fields = await page.$$eval('#case-fields [data-column]', (fs) => fs.map((f) => [f.dataset.column, f.tagName, f.type,
+    f.tagName === 'SELECT' ? [...f.options].slice(1).map((o) => o.value) : null, f.labels[0].textContent]));
+  assert.deepEqual(fields.map((f) => f[0]), ['climate_zone', 'floor_area_m2', 'occupants', 'building_age', 'mean_outdoor_temp_c', 'hvac_type', 'retrofit']);
+  assert.deepEqual(fields.find((f) => f[0] === 'hvac_type').slice(1, 4), ['SELECT', 'select-one', ['district heat', 'gas boiler', 'heat pump']]);
+  assert.deepEqual(fields.find((f) => f[0] === 'climate_zone')[3], ['1', '2', '3', '4', '5']);
+  assert.deepEqual(fields.find((f) => f[0] === 'floor_area_m2').slice(1, 3), ['INPUT', 'number']);
+  for (const f of fields) assert.equal(f[4], f[0], `${f[0]} is labelled with its column name`);
+
+  // An empty box: a plain message, nothing sent.
+  const sent = await page.evaluate(() => window.plumblineTest.predictsDone());
+  await page.click('#case-button');
+  assert.match(await visibleText('#predict-message'), /Give a value for each of climate_zone, floor_area_m2, .*retrofit first/);
+  assert.equal(await page.evaluate(() => window.plumblineTest.predictsDone()), sent, 'nothing was sent to the worker');
+
+  // The first row of the demo data, typed into the form (Enter predicts).
+  const first = { climate_zone: '1', floor_area_m2: '2436', occupants: '101', building_age: '80', mean_outdoor_temp_c: '17.5', hvac_type: 'district heat', retrofit: '0' };
+  for (const [k, v] of Object.entries(first)) {
+    const sel = `#case-fields [data-column="${k}"]`;
+    if (fields.find((f) => f[0] === k)[1] === 'SELECT') await page.selectOption(sel, v);
+    else await page.fill(sel, v);
+  }
+  await afterPredict(() => page.press('#case-fields [data-column="retrofit"]', 'Enter'));
+  assert.ok(await page.isHidden('#predict-message'));
+  const newPath = join(shots, 'new-cases.csv');
+  writeFileSync(newPath, NEW_CASES_CSV);
+  const cli = cliPredict(demoCsv, newPath, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  let rows = await predictionsFromPage();
+  assert.equal(rows.length, 1);
+  assert.equal(rows[0].row, 'This case');
+  assertPredictionRow(rows[0], cli.predictions[0], 'the case in the form');
+  assert.equal(rows[0].note, 'within the data');
+  const summary = await page.textContent('#case-summary');
+  assert.match(summary, /^energy_mwh: 646\.72\. For the average of cases like this one, 555\.98 to 752\.27; for this one case, 331\.82 to 1154\.4 \(95% intervals\)\.$/);
+  assert.ok(relClose(Number(await page.getAttribute('#case-summary .big', 'title').then((t) => t.split(': ')[1])), cli.predictions[0].original.estimate, 1e-12));
+  assert.match(await page.textContent('#predict-facts'), /back-transformed by exp, with Duan's smearing \(smearing factor 1\.04495\)/);
+  assert.deepEqual(await page.$$eval('#predict-cautions li', (lis) => lis.map((l) => l.textContent)), cli.cautions, 'the cautions are shown');
+  await page.locator('#predict').screenshot({ path: join(shots, '26-predict-one-case.png') });
+
+  // A case far outside the data is flagged, with the reasons.
+  await page.fill('#case-fields [data-column="floor_area_m2"]', '2000000');
+  await afterPredict(() => page.click('#case-button'));
+  assert.match(await page.textContent('#case-summary'), /It lies outside the data: floor_area_m2 = 2000000 is above the largest value in the data \(495800\); its combination of values is further from the data than any fitted row/);
+  rows = await predictionsFromPage();
+  assert.equal(rows[0].className, 'extrapolation');
+  assert.equal(rows[0].note, 'outside the data');
+  assert.match(rows[0].reasons, /^This case is outside the data: floor_area_m2 = 2000000 is above the largest value in the data/);
+
+  // A file of new cases through the file input: every row the CLI's, the
+  // rows that cannot be predicted with the CLI's reasons.
+  await afterPredict(() => page.setInputFiles('#cases-file', { name: 'new-cases.csv', mimeType: 'text/csv', buffer: Buffer.from(NEW_CASES_CSV) }));
+  assert.ok(await page.isHidden('#predict-message'), await page.textContent('#predict-message'));
+  assert.ok(await page.isHidden('#case-summary'), 'no one-case sentence for a file');
+  rows = await predictionsFromPage();
+  assert.deepEqual(rows.map((r) => r.row), cli.predictions.map((p) => String(p.row)), 'rows numbered as in the new file');
+  assert.equal(await page.textContent('#predictions-table thead th:first-child'), 'File row');
+  cli.predictions.forEach((want, i) => {
+    if (want.problem) {
+      assert.equal(rows[i].note, want.problem, `row ${want.row}: the reason in plain words`);
+      assert.equal(rows[i].className, 'problem');
+      assert.equal(rows[i].full.length, 0);
+    } else {
+      assertPredictionRow(rows[i], want, `file row ${want.row}`);
+      assert.equal(rows[i].className, want.extrapolation ? 'extrapolation' : '');
+      if (want.extrapolation) assert.equal(rows[i].reasons, `File row ${want.row} is outside the data: ${want.extrapolation_reasons.join('; ')}.`);
+      else assert.equal(rows[i].reasons, null);
+    }
+  });
+  assert.match(rows[2].note, /no value in "occupants"/);
+  assert.match(rows[3].note, /"steam" in "hvac_type", a value the model never saw/);
+  assert.match(await page.textContent('#predict-facts'), /new-cases\.csv: 2 of 5 rows predicted/);
+  assert.deepEqual(await page.$$eval('#predict-notes li', (lis) => lis.map((l) => l.textContent)), cli.notes);
+  await page.locator('#predict').screenshot({ path: join(shots, '27-predict-file.png') });
+
+  // Copy predictions: tab-separated, every digit.
+  await context.grantPermissions(['clipboard-read', 'clipboard-write']);
+  await page.click('#copy-predictions');
+  await page.locator('#copy-predictions-status').filter({ hasText: 'Copied 5 rows' }).waitFor({ timeout: 5000 });
+  const clip = await page.evaluate(() => navigator.clipboard.readText());
+  assert.equal(clip, await page.evaluate(() => window.plumblineTest.copiedText()));
+  const lines = clip.trimEnd().split('\n').map((l) => l.split('\t'));
+  assert.equal(lines.length, 6);
+  assert.deepEqual(lines[0].slice(0, 7), ['row', 'estimate', 'mean low', 'mean high', 'case low', 'case high', 'original scale estimate']);
+  // Every digit the page holds is copied, and they are the CLI's numbers.
+  lines.slice(1).forEach((cells, i) => {
+    assert.equal(cells[0], String(cli.predictions[i].row));
+    const numbers = [...cells.slice(6, 11), ...cells.slice(1, 6), cells[11]].filter((c) => c !== '').map(Number);
+    assert.deepEqual(numbers, rows[i].full.map(Number), `file row ${cells[0]} copied in full`);
+  });
+  assert.ok(relClose(Number(lines[1][1]), cli.predictions[0].estimate, 1e-9));
+  assert.ok(relClose(Number(lines[1][6]), cli.predictions[0].original.estimate, 1e-9));
+  assert.equal(lines[4].at(-1), cli.predictions[3].problem);
+
+  // A file without a column the model needs: the wasm's words; the data, the
+  // model and the form stay.
+  await afterPredict(() => page.setInputFiles('#cases-file', { name: 'short.csv', mimeType: 'text/csv', buffer: Buffer.from('climate_zone,floor_area_m2\n1,2000\n') }));
+  const msg = await visibleText('#predict-message');
+  assert.match(msg, /^No predictions could be made of "short\.csv"\. In the new cases: There is no column called "occupants"\./);
+  assert.equal(await page.inputValue('#case-fields [data-column="floor_area_m2"]'), '2000000', 'the form keeps its values');
+  assert.match(await page.textContent('#data-facts'), /240 rows of data/);
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS);
+  // A broken file of new cases: the reader's words.
+  await page.setInputFiles('#cases-file', { name: 'broken.xlsx', mimeType: 'application/octet-stream', buffer: Buffer.from('PK') });
+  await page.locator('#predict-message').filter({ hasText: 'broken.xlsx' }).waitFor({ timeout: 10000 });
+  assert.match(await page.textContent('#predict-message'), /^"broken\.xlsx" could not be opened: /);
+
+  // Pasted new cases (tab-separated, as a spreadsheet copies them).
+  const pasted = NEW_CASES_CSV.split('\n').slice(0, 3).map((l) => l.split(',').join('\t')).join('\n');
+  await page.fill('#cases-paste', pasted);
+  await afterPredict(() => page.click('#cases-paste-button'));
+  rows = await predictionsFromPage();
+  assert.equal(rows.length, 2);
+  assert.equal(await page.textContent('#predictions-table thead th:first-child'), 'Pasted row');
+  assertPredictionRow(rows[0], cli.predictions[0], 'pasted row 2');
+  assertPredictionRow(rows[1], cli.predictions[1], 'pasted row 3');
+
+  // A new fit marks the predictions as out of date and keeps the form's values.
+  await page.fill('#terms', 'log(floor_area_m2), cat(hvac_type)');
+  await afterFit(() => page.click('#fit-button'));
+  await page.waitForFunction(() => document.querySelectorAll('#case-fields [data-column]').length === 2, null, { timeout: 15000 });
+  assert.ok(await page.isVisible('#predict-stale'), 'the predictions are marked as of an earlier model');
+  assert.equal(await page.inputValue('#case-fields [data-column="floor_area_m2"]'), '2000000');
+  assert.equal(await page.inputValue('#case-fields [data-column="hvac_type"]'), 'district heat');
+  await afterPredict(() => page.click('#case-button'));
+  assert.ok(await page.isHidden('#predict-stale'));
+  assert.equal((await predictionsFromPage()).length, 1);
+});
+
+/** Clicks a button that offers a download and returns the file's name and bytes. */
+async function downloadOf(selector) {
+  const [dl] = await Promise.all([page.waitForEvent('download', { timeout: 20000 }), page.click(selector)]);
+  const path = join(shots, `download-${dl.suggestedFilename()}`);
+  await dl.saveAs(path);
+  return { name: dl.suggestedFilename(), bytes: readFileSync(path), path };
+}
+
+/** Opens a session file through its file input and waits until the page has dealt with it. */
+async function openSessionThroughPage(name, buffer) {
+  const before = await page.evaluate(() => window.plumblineTest.sessionsOpened());
+  await page.setInputFiles('#session-file', { name, mimeType: 'application/json', buffer });
+  await page.waitForFunction((n) => window.plumblineTest.sessionsOpened() > n, before, { timeout: 30000 });
+}
+
+test('Exports: copies of the comparison, the formula, the workbook, the report and the session, from the wasm', { timeout: 180000 }, async () => {
+  await openFresh();
+  const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+  await afterFit(() => page.click('#demo-button'));
+  await checksDrawn(drawn);
+  await afterSearch(() => page.click('#search-button'));
+  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  await afterPredict(() => page.setInputFiles('#cases-file', { name: 'new-cases.csv', mimeType: 'text/csv', buffer: Buffer.from(NEW_CASES_CSV) }));
+  assert.ok(await page.isVisible('#keep'), 'the step is shown after a fit');
+  const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  const cliSel = cliSelect(demoCsv, { response: DEMO_RESPONSE, candidates: DEMO_TERMS });
+
+  // Copy the comparison: the CLI's sets, every digit.
+  await context.grantPermissions(['clipboard-read', 'clipboard-write']);
+  await page.click('#copy-candidates');
+  await page.locator('#copy-candidates-status').filter({ hasText: `Copied ${cliSel.comparison.length} rows` }).waitFor({ timeout: 10000 });
+  const cand = (await page.evaluate(() => navigator.clipboard.readText())).trimEnd().split('\n').map((l) => l.split('\t'));
+  assert.equal(cand.length, cliSel.comparison.length + 1);
+  const bicAt = cand[0].indexOf('BIC');
+  assert.ok(bicAt > 0, `a BIC column (${cand[0].join(', ')})`);
+  cliSel.comparison.forEach((c, i) => assert.ok(relClose(Number(cand[i + 1][bicAt]), c.bic, 1e-9), `BIC of set ${i + 1}`));
+
+  // The formula: the columns guessed from the data's order, the first row
+  // below the header, every coefficient at full precision.
+  const cells = await page.$$eval('#formula-cells input', (fs) => fs.map((f) => [f.dataset.column, f.value, f.labels[0].textContent]));
+  assert.deepEqual(cells.map((c) => c.slice(0, 2)), [['climate_zone', 'C'], ['floor_area_m2', 'D'], ['occupants', 'E'], ['building_age', 'F'],
+    ['mean_outdoor_temp_c', 'G'], ['hvac_type', 'H'], ['retrofit', 'I']]);
+  assert.equal(await page.inputValue('#formula-row'), '2');
+  const exportsBefore = await page.evaluate(() => window.plumblineTest.exportsDone());
+  await page.click('#formula-button');
+  await page.waitForFunction((n) => window.plumblineTest.exportsDone() > n, exportsBefore, { timeout: 10000 });
+  let formula = await page.inputValue('#formula-text');
+  assert.match(formula, /^=EXP\(/, 'a log response comes back on its own scale');
+  // Every digit of the coefficients the page shows (the CLI's to 1e-9, as the tests above check).
+  for (const row of await coefTableFromPage()) {
+    const digits = String(Math.abs(Number(row.cells[0].full)));
+    assert.ok(formula.includes(digits), `${row.term}: ${digits} in the formula`);
+  }
+  for (const ref of ['IF(C2=2;1;0)', 'LN(D2)', 'LN(E2)', 'F2', 'G2', 'IF(EXACT(H2;"gas boiler");1;0)', 'I2']) assert.ok(formula.includes(ref), `${ref} in the formula`);
+  assert.match(await page.textContent('#formula-notes'), /smearing/);
+  await page.click('#formula-copy');
+  await page.locator('#formula-copy-status').filter({ hasText: 'Copied' }).waitFor({ timeout: 5000 });
+  assert.equal(await page.evaluate(() => navigator.clipboard.readText()), formula);
+  // Other cells, another row and the comma separator.
+  await page.fill('#formula-cells input[data-column="floor_area_m2"]', 'k');
+  await page.fill('#formula-row', '5');
+  await page.selectOption('#formula-separator', ',');
+  await page.press('#formula-row', 'Enter');
+  await page.waitForFunction(() => document.getElementById('formula-text').value.includes('LN(K5)'), null, { timeout: 10000 });
+  formula = await page.inputValue('#formula-text');
+  assert.ok(formula.includes('IF(C5=2,1,0)'), 'the comma separates the arguments');
+  assert.equal(await page.textContent('#formula-first'), '5');
+  // No cell for a column: the wasm's words, the rest stays.
+  await page.fill('#formula-cells input[data-column="occupants"]', '');
+  await page.click('#formula-button');
+  assert.match(await visibleText('#keep-message'), /^The formula could not be written\. .*occupants/);
+  assert.equal(await page.inputValue('#formula-cells input[data-column="floor_area_m2"]'), 'k', 'what was typed stays');
+  await page.fill('#formula-cells input[data-column="occupants"]', 'E');
+  await page.fill('#formula-cells input[data-column="floor_area_m2"]', 'D');
+  await page.fill('#formula-row', '2');
+  await page.selectOption('#formula-separator', ';');
+  await page.click('#formula-button');
+  await page.waitForFunction(() => document.getElementById('formula-text').value.includes('LN(D2)'), null, { timeout: 10000 });
+  assert.ok(await page.isHidden('#keep-message'));
+  await page.locator('#keep').screenshot({ path: join(shots, '29-take-it-with-you.png') });
+
+  // The results workbook: a real xlsx whose sheets read back, through the
+  // page's own reader, to the CLI's numbers.
+  const wb = await downloadOf('#workbook-button');
+  assert.equal(wb.name, 'building-energy-results.xlsx');
+  assert.equal(wb.bytes.subarray(0, 2).toString(), 'PK', 'a zip container');
+  const sheets = await page.evaluate((b64) => window.plumblineTest.inspect(Uint8Array.from(atob(b64), (c) => c.charCodeAt(0)), {}), wb.bytes.toString('base64'));
+  assert.deepEqual(sheets.ok.load.sheets, ['Model', 'Coefficients', 'Candidates', 'Rows', 'Predictions']);
+  const coefSheet = await page.evaluate((b64) => window.plumblineTest.inspect(Uint8Array.from(atob(b64), (c) => c.charCodeAt(0)), { sheet: 'Coefficients', preview_rows: 50 }), wb.bytes.toString('base64'));
+  const head = coefSheet.ok.preview.header;
+  assert.equal(coefSheet.ok.preview.rows.length, cli.coefficients.length);
+  cli.coefficients.forEach((c, i) => {
+    const row = coefSheet.ok.preview.rows[i];
+    assert.equal(row[head.indexOf('term')], c.term);
+    for (const [key, name] of [['estimate', 'estimate'], ['std_error', 'standard error'], ['p_value', 'p-value']]) {
+      assert.ok(relClose(Number(row[head.indexOf(name)]), c[key], 1e-9), `workbook ${c.term} ${key}: ${row[head.indexOf(name)]}, CLI ${c[key]}`);
+    }
+  });
+  const predSheet = await page.evaluate((b64) => window.plumblineTest.inspect(Uint8Array.from(atob(b64), (c) => c.charCodeAt(0)), { sheet: 'Predictions', preview_rows: 50 }), wb.bytes.toString('base64'));
+  assert.equal(predSheet.ok.preview.rows.length, 5, 'the predictions shown');
+
+  // The report: self-contained HTML with the file's SHA-256, the figures as
+  // PNG, the formula and the cautions.
+  const rep = await downloadOf('#report-button');
+  assert.equal(rep.name, 'building-energy-report.html');
+  const html = rep.bytes.toString('utf8');
+  const sha = createHash('sha256').update(readFileSync(demoCsv)).digest('hex');
+  assert.ok(html.includes(sha), 'the SHA-256 of the demo file');
+  assert.ok(html.includes('building-energy.csv'));
+  const canvases = await page.locator('#plots canvas').count();
+  assert.equal((html.match(/<img [^>]*src="data:image\/png;base64,/g) || []).length, canvases, 'every figure, as PNG');
+  formula = await page.inputValue('#formula-text');
+  assert.ok(html.includes(formula.replace(/"/g, '&quot;')), 'the formula written last');
+  for (const c of cli.cautions) assert.ok(html.includes(c.replace(/'/g, '&#39;')), `the caution: ${c}`);
+  assert.match(html, /<meta http-equiv="Content-Security-Policy"/);
+  assert.doesNotMatch(html, /\b(?:https?|wss?):\/\//, 'the report points nowhere else');
+
+  // The session: saved, the choices changed, reopened: every choice back and the same numbers.
+  await page.check('#session-data');
+  await page.uncheck('#session-data');
+  const ses = await downloadOf('#session-save');
+  assert.equal(ses.name, 'building-energy-session.json');
+  const saved = JSON.parse(ses.bytes.toString('utf8'));
+  assert.equal(saved.format, 'plumbline-session');
+  assert.equal(saved.data, null, 'no data unless asked');
+  assert.equal(saved.source.sha256, sha);
+  assert.deepEqual(saved.model, { response: DEMO_RESPONSE, terms: DEMO_TERMS, intercept: true, weights: null, exclude_rows: [], level: 0.95, hc3: false });
+  const coefBefore = await coefTableFromPage();
+  await page.fill('#terms', 'retrofit');
+  await page.selectOption('#response-transform', '');
+  await page.fill('#candidates', 'retrofit');
+  await afterFit(() => openSessionThroughPage(ses.name, ses.bytes));
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS);
+  assert.equal(await page.inputValue('#response-transform'), 'log');
+  assert.equal(await page.inputValue('#candidates'), DEMO_TERMS);
+  assert.deepEqual(await coefTableFromPage(), coefBefore, 'the same numbers');
+  assert.match(await visibleText('#session-notes'), /^Opened the session "building-energy-session\.json", saved \d{4}-\d\d-\d\d \d\d:\d\d\./);
+  assert.ok(await page.isHidden('#data-message'));
+
+  // A session that keeps the data opens on a fresh page, data and all.
+  await page.check('#session-data');
+  const withData = await downloadOf('#session-save');
+  assert.ok(JSON.parse(withData.bytes.toString('utf8')).data.length > 1000, 'the data are kept');
+  await openFresh();
+  await afterFit(() => openSessionThroughPage('with-data.json', withData.bytes));
+  assert.match(await page.textContent('#data-facts'), /building-energy\.csv \(from the session\): 240 rows of data/);
+  assert.deepEqual(await coefTableFromPage(), coefBefore, 'the same numbers from the kept data');
+  assert.match(await page.textContent('#session-notes'), /with the copy of the data it keeps/);
+
+  // The session against other data: explained, not crashed on; the data stay.
+  await openFile(join(files, 'deliveries.tsv'));
+  await openSessionThroughPage(ses.name, ses.bytes);
+  const notes = await visibleText('#session-notes');
+  assert.match(notes, /These data are not the file the session was saved with \("building-energy\.csv"\)/);
+  assert.match(notes, /The model uses columns that these data do not have: "energy_mwh"/);
+  assert.match(notes, /it was not fitted/);
+  assert.match(await page.textContent('#data-facts'), /deliveries\.tsv: 30 rows of data/);
+  // A file that is not a session: plain words, and the data stay.
+  await openSessionThroughPage('notes.json', Buffer.from('{"hello": 1}'));
+  assert.match(await visibleText('#data-message'), /^The session "notes\.json" could not be opened: This JSON file is not a plumbline session file/);
+  assert.match(await visibleText('#data-message'), /\("deliveries\.tsv"\) are still loaded/);
+  await openSessionThroughPage('broken.json', Buffer.from('{"format": "plumbline-session", "version": 1, "model": '));
+  assert.match(await visibleText('#data-message'), /could not be opened: This is not a session file \(it is not JSON/);
+  assert.match(await page.textContent('#data-facts'), /deliveries\.tsv: 30 rows of data/);
+  // A session without its data, on a page without data.
+  await openFresh();
+  await openSessionThroughPage(ses.name, ses.bytes);
+  assert.match(await visibleText('#data-message'), /The session does not keep the data; load the data file first, then open the session\./);
+});
+
+/** Presses Tab until the focus is on the element with this id; fails after `most` presses. */
+async function tabTo(id, most = 400) {
+  for (let i = 0; i < most; i++) {
+    if (await page.evaluate((x) => document.activeElement && document.activeElement.id === x, id)) return i;
+    await page.keyboard.press('Tab');
+  }
+  assert.fail(`Tab did not reach #${id} in ${most} presses (the focus is on ${await page.evaluate(() => document.activeElement && (document.activeElement.id || document.activeElement.outerHTML.slice(0, 80)))})`);
+}
+
+test('the main path by keyboard alone: demo, search, use the recommended model, predict, formula, session', { timeout: 180000 }, async () => {
+  await openFresh();
+  await page.evaluate(() => document.activeElement && document.activeElement.blur());
+  const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+  await tabTo('demo-button', 20);
+  await afterFit(() => page.keyboard.press('Enter'));
+  await assertCoefRows(12);
+  await checksDrawn(drawn);
+  await tabTo('search-button');
+  await afterSearch(() => page.keyboard.press('Enter'));
+  assert.ok((await page.locator('#comparison-table tbody tr').count()) >= 5, 'the search ran');
+  await tabTo('recommend-use', 20);
+  await afterFit(() => page.keyboard.press('Enter'));
+  await page.waitForFunction(() => document.querySelectorAll('#case-fields [data-column]').length > 0, null, { timeout: 15000 });
+  const recommended = await page.inputValue('#terms');
+  // The one-case form: every field from the keyboard, Enter predicts.
+  await tabTo('case-input-1');
+  const n = await page.locator('#case-fields [data-column]').count();
+  for (let i = 1; i <= n; i++) {
+    assert.equal(await page.evaluate(() => document.activeElement.id), `case-input-${i}`, 'Tab goes through the form in order');
+    if (await page.evaluate(() => document.activeElement.tagName === 'SELECT')) await page.keyboard.press('ArrowDown');
+    else await page.keyboard.type('5');
+    if (i < n) await page.keyboard.press('Tab');
+  }
+  await afterPredict(() => page.keyboard.press('Enter'));
+  assert.equal((await predictionsFromPage()).length, 1, 'the case is predicted');
+  assert.ok(await page.isHidden('#predict-message'), await page.textContent('#predict-message'));
+  await tabTo('formula-button');
+  await page.keyboard.press('Enter');
+  await page.waitForFunction(() => document.getElementById('formula-text').value.startsWith('='), null, { timeout: 10000 });
+  await tabTo('session-save', 30);
+  const [dl] = await Promise.all([page.waitForEvent('download', { timeout: 20000 }), page.keyboard.press('Enter')]);
+  assert.equal(dl.suggestedFilename(), 'building-energy-session.json');
+  assert.equal(await page.inputValue('#terms'), recommended);
+  await shot('30-keyboard-path');
+});
+
+test('every control has an accessible name in the browser\'s accessibility tree, and numbers are shown rounded', { timeout: 60000 }, async () => {
+  // Still on the page of the keyboard walk: every step is shown.
+  for (const id of ['data-summary', 'columns-body', 'result', 'choose-result', 'checks-body', 'predict', 'predict-result', 'keep', 'formula-out']) {
+    assert.ok(await page.isVisible(`#${id}`), `#${id} is shown`);
+  }
+  const cdp = await context.newCDPSession(page);
+  const { nodes } = await cdp.send('Accessibility.getFullAXTree');
+  await cdp.detach();
+  const controls = new Set(['button', 'textbox', 'combobox', 'checkbox', 'spinbutton', 'listbox', 'radio', 'slider', 'searchbox', 'link']);
+  const named = [];
+  const unnamed = [];
+  for (const node of nodes) {
+    const role = node.role && node.role.value;
+    if (node.ignored || !controls.has(role)) continue;
+    const name = node.name && typeof node.name.value === 'string' ? node.name.value.trim() : '';
+    (name ? named : unnamed).push(`${role} "${name}"`);
+  }
+  assert.deepEqual(unnamed, [], 'controls without an accessible name');
+  assert.ok(named.length >= 60, `every step's controls are in the tree (${named.length})`);
+  for (const name of ['button "Open the demo data"', 'button "Predict this case"', 'button "Write the formula"', 'button "Save the session"',
+    'button "Download the report (.html)"', 'button "Copy predictions"', 'button "Copy the comparison"']) {
+    assert.ok(named.includes(name), `${name} is in the tree`);
+  }
+  assert.ok(named.some((x) => /^button "Open a session file/.test(x)), `the session file input is named (${named.filter((x) => /session/i.test(x)).join(', ')})`);
+  assert.ok(named.some((x) => /^combobox "hvac_type"|^combobox "climate_zone"/.test(x)) || named.some((x) => /^spinbutton "floor_area_m2"/.test(x)), 'the one-case fields are named by their columns');
+  // The DOM's own view agrees: every input, select, textarea and button is labelled.
+  const unlabelled = await page.$$eval('input, select, textarea, button', (els) => els
+    .filter((e) => !(e.labels && e.labels.length) && !e.getAttribute('aria-label') && !e.getAttribute('aria-labelledby') && !e.textContent.trim())
+    .map((e) => e.id || e.outerHTML.slice(0, 60)));
+  assert.deepEqual(unlabelled, []);
+
+  // Numbers are rounded for reading (at most 6 significant digits) and kept in full.
+  const cells = await page.$$eval('#coef-table td.num, #predictions-table td.num, #comparison-table td.num[data-full]', (tds) => tds.map((td) => [td.textContent, td.dataset.full]));
+  assert.ok(cells.length > 50, `numbers checked (${cells.length})`);
+  for (const [shown, f] of cells) {
+    if (f === '' || f === undefined || !Number.isFinite(Number(f))) continue;
+    const mantissa = shown.replace(/^-/, '').replace(/e.*$/, '').replace('.', '').replace(/^0+/, '');
+    assert.ok(mantissa.length <= 6 || /^\d+$/.test(shown.replace(/^-/, '')), `${shown} is rounded (full ${f})`);
+    // Half a unit of the last digit shown.
+    const [mant, exp = '0'] = shown.split('e');
+    const decimals = mant.includes('.') ? mant.split('.')[1].length : 0;
+    const half = 0.5 * 10 ** (Number(exp) - decimals);
+    assert.ok(Math.abs(Number(shown) - Number(f)) <= half * (1 + 1e-9), `${shown} rounds ${f}`);
+  }
+});
+
+test('readable at 1366×768 and 1920×1080: no sideways scrolling, each step in view', { timeout: 60000 }, async () => {
+  for (const [w, h] of [[1366, 768], [1920, 1080]]) {
+    await page.setViewportSize({ width: w, height: h });
+    await page.evaluate(() => window.scrollTo(0, 0));
+    const overflow = await page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth);
+    assert.ok(overflow <= 0, `no sideways scrolling at ${w}×${h} (${overflow}px)`);
+    for (const id of ['predict', 'keep']) {
+      const box = await page.locator(`#${id}`).boundingBox();
+      assert.ok(box.width <= w, `#${id} fits across at ${w} px`);
+      await page.locator(`#${id}`).screenshot({ path: join(shots, `31-${id}-${w}x${h}.png`) });
+    }
+    await page.screenshot({ path: join(shots, `32-whole-page-${w}x${h}.png`), fullPage: true });
+  }
+  await page.setViewportSize({ width: 1366, height: 768 });
+});
+
+test('a whole session, from the demo to predictions, asks for nothing, stores nothing and uses no eval', { timeout: 120000 }, async () => {
+  const requestsBefore = requests.length;
+  const routedBefore = routed.length;
+  await openFresh();
+  const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+  await afterFit(() => page.click('#demo-button'));
+  await assertCoefRows(12);
+  await checksDrawn(drawn);
+  await afterSearch(() => page.click('#search-button'));
+  assert.ok((await page.locator('#comparison-table tbody tr').count()) >= 5);
+  await afterFit(() => page.click('#recommend-use'));
+  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  for (const f of await page.$$('#case-fields [data-column]')) {
+    if (await f.evaluate((e) => e.tagName === 'SELECT')) await f.selectOption({ index: 1 });
+    else await f.fill('3');
+  }
+  await afterPredict(() => page.click('#case-button'));
+  assert.equal((await predictionsFromPage()).length, 1);
+  await afterPredict(() => page.setInputFiles('#cases-file', { name: 'new-cases.csv', mimeType: 'text/csv', buffer: Buffer.from(NEW_CASES_CSV) }));
+  assert.equal((await predictionsFromPage()).length, 5);
+  await context.grantPermissions(['clipboard-read', 'clipboard-write']);
+  await page.click('#copy-button');
+  await page.click('#copy-predictions');
+  await page.locator('#copy-predictions-status').filter({ hasText: 'Copied' }).waitFor({ timeout: 5000 });
+  await page.click('#copy-candidates');
+  await page.locator('#copy-candidates-status').filter({ hasText: 'Copied' }).waitFor({ timeout: 5000 });
+  // Every export, too: the formula, the files and the session (downloads are blob: URLs inside the page).
+  await page.click('#formula-button');
+  await page.waitForFunction(() => document.getElementById('formula-text').value.startsWith('='), null, { timeout: 10000 });
+  await downloadOf('#workbook-button');
+  await downloadOf('#report-button');
+  await page.check('#session-data');
+  const ses = await downloadOf('#session-save');
+  await afterFit(() => openSessionThroughPage('session.json', ses.bytes));
+  await assertWatchClean('a whole session');
+  const asked = requests.slice(requestsBefore).filter((u) => u.split('#')[0] !== pageUrl);
+  assert.deepEqual(asked, [], 'no request but the page');
+  assert.deepEqual(routed.slice(routedBefore).filter((u) => u.split('#')[0] !== pageUrl), [], 'nothing but the page reached the network layer');
+  assert.deepEqual(pageErrors, []);
+});
+
+test('over the whole session, nothing was requested but the page', { timeout: 10000 }, async () => {
+  await assertWatchClean('the last page of the session');
+  assert.deepEqual(refused, [], 'nothing but the page reached the network layer');
+  assert.ok(routed.length >= 1 && routed.every((u) => u.split('#')[0] === pageUrl), `only the page was loaded (${routed.length} loads)`);
   const foreign = foreignRequests();
   console.log(`  requests: ${requests.length} of the page itself, ${foreign.length} other; data: URLs seen as requests: ${dataRequests.length}; workers started: ${workers.length}`);
   assert.deepEqual(foreign, []);

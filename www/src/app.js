@@ -13,6 +13,16 @@ const DEMO = { response: 'energy_mwh', transform: 'log' };
 const AUTO_CHECK_ROWS = 20000;
 /** The most influential rows listed in the Checks. */
 const INFLUENTIAL_ROWS = 10;
+/**
+ * The largest file the page reads (256 MiB). A file is refused before it is
+ * read when it is larger: the page keeps the bytes, the calculation worker
+ * gets a copy of them with each request, and the tables built from them must
+ * fit in the wasm's memory (at most 4 GiB) beside them. The readers' own
+ * limit, 50 million cells, is reached at about this size too.
+ */
+const MAX_FILE_BYTES = 256 * 1024 * 1024;
+/** Predictions listed on the page; Copy predictions copies all of them. */
+const PREDICTION_ROWS_SHOWN = 500;
 
 const $ = (id) => document.getElementById(id);
 const el = {
@@ -114,6 +124,54 @@ const el = {
   checksCautions: $('checks-cautions'),
   plots: $('plots'),
   excludedAreas: [$('excluded-model'), $('excluded-checks')],
+  predict: $('predict'),
+  predictStale: $('predict-stale'),
+  caseForm: $('case-form'),
+  caseHint: $('case-hint'),
+  caseFields: $('case-fields'),
+  caseButton: $('case-button'),
+  caseStatus: $('case-status'),
+  casesFile: $('cases-file'),
+  casesPaste: $('cases-paste'),
+  casesPasteButton: $('cases-paste-button'),
+  casesSheetField: $('cases-sheet-field'),
+  casesSheet: $('cases-sheet'),
+  casesStatus: $('cases-status'),
+  predictMessage: $('predict-message'),
+  predictResult: $('predict-result'),
+  predictFacts: $('predict-facts'),
+  predictionsTable: $('predictions-table'),
+  copyPredictions: $('copy-predictions'),
+  copyPredictionsStatus: $('copy-predictions-status'),
+  predictNotesBlock: $('predict-notes-block'),
+  predictNotes: $('predict-notes'),
+  predictCautions: $('predict-cautions'),
+  copyCandidates: $('copy-candidates'),
+  copyCandidatesStatus: $('copy-candidates-status'),
+  keep: $('keep'),
+  keepMessage: $('keep-message'),
+  formulaForm: $('formula-form'),
+  formulaCells: $('formula-cells'),
+  formulaRow: $('formula-row'),
+  formulaSeparator: $('formula-separator'),
+  formulaComma: $('formula-comma'),
+  formulaButton: $('formula-button'),
+  formulaStatus: $('formula-status'),
+  formulaOut: $('formula-out'),
+  formulaText: $('formula-text'),
+  formulaFirst: $('formula-first'),
+  formulaCopy: $('formula-copy'),
+  formulaCopyStatus: $('formula-copy-status'),
+  formulaNotes: $('formula-notes'),
+  workbookButton: $('workbook-button'),
+  reportButton: $('report-button'),
+  filesStatus: $('files-status'),
+  sessionData: $('session-data'),
+  sessionSave: $('session-save'),
+  sessionStatus: $('session-status'),
+  sessionFile: $('session-file'),
+  sessionBlock: $('session-block'),
+  sessionNotes: $('session-notes'),
 };
 
 /** What is loaded: kept on the main thread, whatever happens to the worker. */
@@ -139,6 +197,19 @@ const state = {
   plots: new Map(), // canvas id -> {figure, extent, area, order}
   excluded: [], // source row numbers the user left out of the model
   excludedUndo: [], // earlier lists of them, the last on top
+  inputs: null, // {response, transformed, inputs} of the model in the Result
+  inputsSeq: 0,
+  caseValues: new Map(), // column -> what the user put in the one-case form
+  newCases: null, // {name, bytes, read: {paste?, sheet?}, load} of the many-cases file or paste
+  prediction: null, // {report, source: 'case' | 'cases', name, format}
+  predictSeq: 0,
+  predictsDone: 0, // predictions answered, good or bad (for the tests)
+  check: null, // {report: CheckReport, request} of the checks shown
+  formula: null, // {formula, scale, inputs, notes, request} of the formula shown
+  cellLetters: new Map(), // column -> the sheet column the user gave it for the formula
+  copied: null, // the text last put on the clipboard (for the tests)
+  exportsDone: 0, // exports answered, good or bad (for the tests)
+  sessionsOpened: 0, // session files dealt with, opened or refused (for the tests)
 };
 
 // ---------------------------------------------------------------- messages
@@ -213,7 +284,11 @@ function dropRunningFit() {
   }
 }
 
-async function loadBytes(name, bytes, { paste = false } = {}) {
+/**
+ * Reads bytes as the data of the page. `name` is how the page names them;
+ * `fileName` the file's own name, as the exports record it.
+ */
+async function loadBytes(name, bytes, { paste = false, fileName = name } = {}) {
   clearMessage(el.dataMessage);
   const read = paste ? { paste: true } : {};
   const seq = ++state.inspectSeq;
@@ -230,12 +305,13 @@ async function loadBytes(name, bytes, { paste = false } = {}) {
     return false;
   }
   const inspection = answer.ok;
-  state.data = { name, bytes, read, kinds: {}, detected: detectedKinds(inspection), inspection };
+  state.data = { name, fileName, bytes, read, kinds: {}, detected: detectedKinds(inspection), inspection };
   state.undo = [];
   state.candidateUndo = [];
   state.candidatesEdited = false;
   state.excluded = [];
   state.excludedUndo = [];
+  forgetPredictions();
   renderExcluded();
   dropRunningFit();
   renderData();
@@ -305,11 +381,16 @@ async function reinspect(change, focusAfter) {
 
 async function loadFile(file) {
   if (!file) return;
+  const big = tooBig(file);
+  if (big) {
+    showMessage(el.dataMessage, `${big}${keptNote()}`);
+    return;
+  }
   let buf;
   try {
     buf = await file.arrayBuffer();
   } catch (e) {
-    showMessage(el.dataMessage, `"${file.name}" could not be read from the disk: ${e.message}`);
+    showMessage(el.dataMessage, `"${file.name}" could not be read from the disk: ${e.message}${keptNote()}`);
     return;
   }
   await loadBytes(file.name, new Uint8Array(buf));
@@ -328,7 +409,7 @@ async function loadPaste() {
 async function openDemo() {
   const node = $('plumbline-demo');
   const bytes = new TextEncoder().encode(node.textContent.replace(/^\n/, ''));
-  const ok = await loadBytes(`${node.dataset.name} (invented demo data)`, bytes);
+  const ok = await loadBytes(`${node.dataset.name} (invented demo data)`, bytes, { fileName: node.dataset.name });
   if (!ok) return;
   el.responseColumn.value = DEMO.response;
   el.responseTransform.value = DEMO.transform;
@@ -798,6 +879,8 @@ async function runFit() {
   revealResult();
   finishBusy(`Fitted: ${plural(answer.ok.coefficients.length, 'coefficient')}, ${answer.ok.n} rows used.`);
   showChecksFor(answer.ok);
+  showPredictFor();
+  showKeepFor();
 }
 
 /** Brings the result into view when its top is below the window. */
@@ -819,6 +902,8 @@ function clearResult() {
   el.result.hidden = true;
   el.staleNote.hidden = true;
   clearChecks();
+  clearPredict();
+  el.keep.hidden = true;
 }
 
 function markStale() {
@@ -847,6 +932,14 @@ function shortNumber(v, sig = 5) {
   if (a >= 1e-4 && a < 10 ** sig) return v.toPrecision(sig);
   if (a >= 10 ** sig && a < 1e9) return String(Math.round(v));
   return v.toExponential(sig - 1);
+}
+
+/** A number as short as it reads well, without trailing zeros (for hints). */
+function plainNumber(v, sig = 6) {
+  if (typeof v !== 'number') return shortNumber(v, sig);
+  const a = Math.abs(v);
+  if (a !== 0 && (a < 1e-4 || a >= 1e12)) return v.toExponential(sig - 1).replace(/\.?0+e/, 'e');
+  return String(Number(v.toPrecision(sig)));
 }
 
 function pValueText(v) {
@@ -1420,6 +1513,7 @@ function rowWord() {
 
 function clearChecks() {
   state.checkSeq += 1;
+  state.check = null;
   el.checks.hidden = true;
   el.checksBody.hidden = true;
   el.checksStale.hidden = true;
@@ -1469,6 +1563,7 @@ async function runCheck() {
     return;
   }
   el.checksStale.hidden = true;
+  state.check = { report: answer.ok.check, request };
   renderChecks(answer.ok.check);
   finishCheck(`Checked: ${plural(answer.ok.check.findings.filter((f) => f.severity > 0).length, 'finding')}, ${plural(answer.ok.figures.length, 'figure')}.`);
   await renderPlots(answer.ok.figures, seq);
@@ -1781,6 +1876,7 @@ async function renderPlots(figures, seq) {
     canvas.height = fig.heatmap ? 720 : 440;
     if (fig.heatmap) box.classList.add('wide');
     canvas.dataset.figure = fig.id;
+    canvas.dataset.title = fig.title;
     const pointable = fig.points.some((p) => p.x.length > 0);
     canvas.setAttribute('role', 'img');
     const axes = fig.x_label && fig.y_label ? `: ${fig.y_label} against ${fig.x_label}` : '';
@@ -1825,44 +1921,842 @@ async function renderPlots(figures, seq) {
   state.figuresDrawn += 1;
 }
 
-// ------------------------------------------------------------------ copy
+// ---------------------------------------------------------------- predict
 
-function tableAsText(r) {
-  const head = ['term', 'estimate', 'standard error', 't', 'p-value', `low (${percent(r.level)})`, `high (${percent(r.level)})`];
-  const lines = [head.join('\t')];
-  for (const c of r.coefficients) {
-    const cells = [c.term, c.estimate, c.std_error, c.t, c.p_value, c.ci_low, c.ci_high].map((v, j) => (j === 0 ? v : full(v)));
-    lines.push(cells.map((s) => String(s).replace(/[\t\r\n]+/g, ' ')).join('\t'));
+/** The file size check every picker and drop goes through. */
+function tooBig(file) {
+  if (file.size <= MAX_FILE_BYTES) return null;
+  const grouped = (n) => String(n).replace(/\B(?=(\d{3})+(?!\d))/g, ',');
+  const size = (n) => (n >= 1024 ** 3 ? `${(n / 1024 ** 3).toFixed(1)} GiB` : `${(n / 1024 ** 2).toFixed(1)} MiB`);
+  let is = size(file.size);
+  let limit = `${MAX_FILE_BYTES / 1024 ** 2} MiB`;
+  if (is === size(MAX_FILE_BYTES)) {
+    is = `${grouped(file.size)} bytes`;
+    limit = `${limit} (${grouped(MAX_FILE_BYTES)} bytes)`;
   }
-  return `${lines.join('\n')}\n`;
+  return `"${file.name}" is ${is}, more than the ${limit} this page reads, so it was not opened. `
+    + 'Save the columns you need, or fewer rows, to a smaller file and open that; the command-line tool reads larger files.';
 }
 
-async function copyTable() {
+/** After a fit: the Predict step for its model, with the form for one case. */
+async function showPredictFor() {
+  el.predict.hidden = false;
+  if (state.prediction) el.predictStale.hidden = false;
+  const seq = ++state.inputsSeq;
+  state.inputs = null;
+  el.caseButton.disabled = true;
+  el.caseStatus.textContent = '';
+  let answer;
+  try {
+    answer = await engine.modelInputs(state.data.bytes, state.fitRequest);
+  } catch (e) {
+    if (seq !== state.inputsSeq) return;
+    el.caseFields.textContent = '';
+    el.caseHint.textContent = `The form could not be made: ${e.message}`;
+    return;
+  }
+  if (seq !== state.inputsSeq) return;
+  if (answer.error) {
+    el.caseFields.textContent = '';
+    el.caseHint.textContent = `The form could not be made. ${answer.error}`;
+    return;
+  }
+  state.inputs = answer.ok;
+  renderCaseForm(answer.ok);
+  renderFormulaCells(answer.ok);
+}
+
+/** Other data: the predictions, the new cases and the form's values go. */
+function forgetPredictions() {
+  state.prediction = null;
+  state.newCases = null;
+  state.caseValues.clear();
+  state.predictSeq += 1;
+  el.caseFields.textContent = '';
+  el.predictResult.hidden = true;
+  el.predictStale.hidden = true;
+  el.casesStatus.textContent = '';
+  el.caseStatus.textContent = '';
+  renderCasesSheets();
+  clearMessage(el.predictMessage);
+}
+
+function clearPredict() {
+  state.inputsSeq += 1;
+  state.inputs = null;
+  el.predict.hidden = true;
+}
+
+/** The profile's summary of a column, for the hints of the form. */
+function columnProfile(name) {
+  return state.data ? state.data.inspection.columns.find((c) => c.name === name) : null;
+}
+
+function renderCaseForm(info) {
+  // Keep what was typed, by column, before the form is made again.
+  for (const f of el.caseFields.querySelectorAll('[data-column]')) state.caseValues.set(f.dataset.column, f.value);
+  el.caseFields.textContent = '';
+  el.caseButton.disabled = info.inputs.length === 0 && !(state.fitRequest && state.fitRequest.intercept);
+  el.caseHint.textContent = info.inputs.length
+    ? `One value for each column the model reads (${plural(info.inputs.length, 'column')}).`
+    : 'The model reads no column: every case gets the same prediction.';
+  info.inputs.forEach((input, i) => {
+    const id = `case-input-${i + 1}`;
+    const box = document.createElement('div');
+    box.className = 'case-field';
+    const label = document.createElement('label');
+    label.htmlFor = id;
+    label.className = 'case-label';
+    label.textContent = input.column;
+    const hint = document.createElement('span');
+    hint.className = 'case-range';
+    hint.id = `${id}-hint`;
+    let control;
+    if (input.kind === 'category') {
+      control = document.createElement('select');
+      control.add(new Option('Choose a category', ''));
+      for (const level of input.levels) control.add(new Option(level, level));
+      hint.textContent = `one of the ${input.levels.length} categories of the data${input.reference !== null ? `; the model compares them with ${input.reference}` : ''}`;
+    } else {
+      control = document.createElement('input');
+      if (input.kind === 'date') {
+        control.type = 'date';
+        hint.textContent = 'a date';
+      } else {
+        control.type = 'number';
+        control.step = 'any';
+        control.inputMode = 'decimal';
+        const col = columnProfile(input.column);
+        const sm = col && col.summary;
+        hint.textContent = sm && typeof sm.min === 'number' && typeof sm.max === 'number'
+          ? `a number; the data run from ${plainNumber(sm.min)} to ${plainNumber(sm.max)}`
+          : 'a number';
+      }
+    }
+    control.id = id;
+    control.dataset.column = input.column;
+    control.setAttribute('aria-describedby', hint.id);
+    const kept = state.caseValues.get(input.column);
+    if (kept !== undefined) {
+      control.value = kept;
+      // A level the new model does not have is not kept.
+      if (control.value !== kept) control.value = '';
+    }
+    control.addEventListener('input', () => { state.caseValues.set(input.column, control.value); });
+    box.append(label, control, hint);
+    el.caseFields.append(box);
+  });
+}
+
+/** A cell of tab-separated text, quoted when it must be. */
+function tsvCell(text) {
+  return /[\t\r\n"]/.test(text) ? `"${text.replace(/"/g, '""')}"` : text;
+}
+
+/** The one-case form as a header and one row of tab-separated cells, or the problem. */
+function caseCells() {
+  const fields = [...el.caseFields.querySelectorAll('[data-column]')];
+  const empty = [];
+  const bad = [];
+  for (const f of fields) {
+    if (f.validity && f.validity.badInput) bad.push(f);
+    else if (f.value.trim() === '') empty.push(f);
+  }
+  if (bad.length) {
+    return { problem: `${bad.map((f) => f.dataset.column).join(', ')}: type a number, such as 12.5, with a point for the decimals.`, focus: bad[0] };
+  }
+  if (empty.length) {
+    const names = empty.map((f) => f.dataset.column);
+    return { problem: `Give a value for ${names.length === 1 ? names[0] : `each of ${names.join(', ')}`} first: the model needs every column it reads.`, focus: empty[0] };
+  }
+  if (!fields.length) return { text: 'case\n1\n' };
+  const header = fields.map((f) => tsvCell(f.dataset.column)).join('\t');
+  const row = fields.map((f) => tsvCell(f.value.trim())).join('\t');
+  return { text: `${header}\n${row}\n` };
+}
+
+async function predictCase() {
+  if (!state.data || !state.fitRequest) return;
+  const { text, problem, focus } = caseCells();
+  if (problem) {
+    showMessage(el.predictMessage, problem);
+    if (focus) focus.focus();
+    return;
+  }
+  await runPredict(new TextEncoder().encode(text), { paste: true, header_row: 1, decimal: 'point' }, { source: 'case', name: 'the case in the form', format: 'paste' });
+}
+
+/**
+ * Asks the wasm for predictions of new cases from the model in the Result.
+ * @param {Uint8Array} newBytes
+ * @param {object} read  how to read them: {paste?, sheet?, header_row?, decimal?}
+ * @param {{source: string, name: string, format: string}} what
+ */
+async function runPredict(newBytes, read, what) {
+  const seq = ++state.predictSeq;
+  const status = what.source === 'case' ? el.caseStatus : el.casesStatus;
+  clearMessage(el.predictMessage);
+  el.caseButton.disabled = true;
+  el.casesPasteButton.disabled = true;
+  el.predict.setAttribute('aria-busy', 'true');
+  status.textContent = 'Predicting…';
+  const request = { ...state.fitRequest, new: read };
+  let answer;
+  try {
+    answer = await engine.predict(state.data.bytes, newBytes, request);
+  } catch (e) {
+    if (seq !== state.predictSeq) return;
+    finishPredict(status, '');
+    showMessage(el.predictMessage, e instanceof EngineError && e.kind === 'stopped'
+      ? 'The prediction was stopped together with the search. Press Predict again to run it.'
+      : `The predictions could not be made: ${e.message}`);
+    return;
+  }
+  if (seq !== state.predictSeq) return;
+  if (answer.error) {
+    finishPredict(status, '');
+    const where = what.source === 'case' ? '' : ` of "${what.name}"`;
+    showMessage(el.predictMessage, `No predictions could be made${where}. ${answer.error.replace(/^Could not read the new cases:\s*/, 'The new cases could not be read: ')}`);
+    return;
+  }
+  const r = answer.ok;
+  const done = r.predictions.filter((p) => p.problem === null).length;
+  finishPredict(status, what.source === 'case'
+    ? (done ? 'Predicted.' : 'Not predicted: see the note in the table.')
+    : `Predicted ${done} of ${plural(r.predictions.length, 'row')}.`);
+  state.prediction = { report: r, ...what, request: state.fitRequest };
+  renderPrediction(state.prediction);
+}
+
+function finishPredict(status, text) {
+  state.predictsDone += 1;
+  el.caseButton.disabled = false;
+  el.casesPasteButton.disabled = false;
+  el.predict.removeAttribute('aria-busy');
+  status.textContent = text;
+}
+
+/** Reads a file of new cases: its sheets first (a workbook), then predicts. */
+async function loadCases(file) {
+  if (!file || !state.fitRequest) return;
+  const big = tooBig(file);
+  if (big) {
+    showMessage(el.predictMessage, big);
+    return;
+  }
+  let buf;
+  try {
+    buf = await file.arrayBuffer();
+  } catch (e) {
+    showMessage(el.predictMessage, `"${file.name}" could not be read from the disk: ${e.message}`);
+    return;
+  }
+  await openCases(file.name, new Uint8Array(buf), {});
+}
+
+async function openCases(name, bytes, read) {
+  clearMessage(el.predictMessage);
+  el.casesStatus.textContent = 'Reading…';
+  let answer;
+  try {
+    answer = await inspectBytes(bytes, read, null);
+  } catch (e) {
+    el.casesStatus.textContent = '';
+    showMessage(el.predictMessage, `"${name}" could not be opened: ${e.message}`);
+    return;
+  }
+  if (answer.error) {
+    el.casesStatus.textContent = '';
+    showMessage(el.predictMessage, `"${name}" could not be opened: ${readError(answer.error)}`);
+    return;
+  }
+  const load = answer.ok.load;
+  state.newCases = { name, bytes, read: { ...read, ...(load.sheet !== null && read.sheet === undefined ? { sheet: load.sheet } : {}) }, load };
+  renderCasesSheets();
+  await predictCases();
+}
+
+function renderCasesSheets() {
+  const c = state.newCases;
+  const many = !!c && c.load.sheets.length > 1;
+  el.casesSheetField.hidden = !many;
+  el.casesSheet.textContent = '';
+  if (many) {
+    for (const s of c.load.sheets) el.casesSheet.add(new Option(s, s));
+    el.casesSheet.value = c.read.sheet;
+  }
+}
+
+async function predictCases() {
+  const c = state.newCases;
+  if (!c || !state.fitRequest) return;
+  await runPredict(c.bytes, c.read, { source: 'cases', name: c.name, format: c.load.format });
+}
+
+async function predictPasted() {
+  if (!state.fitRequest) return;
+  const text = el.casesPaste.value;
+  if (text.trim() === '') {
+    showMessage(el.predictMessage, 'There are no pasted cells to predict: copy the new cases in a spreadsheet, with the column names in the first row, and paste them into the box first.');
+    el.casesPaste.focus();
+    return;
+  }
+  await openCases('Pasted new cases', new TextEncoder().encode(text), { paste: true });
+}
+
+const PREDICTION_COLUMNS = [
+  ['estimate', 'Estimate', 6],
+  ['ci_low', 'Mean: low', 6],
+  ['ci_high', 'Mean: high', 6],
+  ['pi_low', 'One case: low', 6],
+  ['pi_high', 'One case: high', 6],
+];
+
+function renderPrediction(p) {
+  const r = p.report;
+  el.predictResult.hidden = false;
+  el.predictStale.hidden = true;
+  const lvl = percent(r.level);
+  const original = r.back_transform ? r.original_scale : null;
+  el.predictFacts.textContent = '';
+  const strong = document.createElement('strong');
+  strong.textContent = p.source === 'case' ? 'The case in the form' : p.name;
+  const done = r.predictions.filter((x) => x.problem === null).length;
+  el.predictFacts.append(strong, p.source === 'case' ? '' : `: ${done} of ${plural(r.predictions.length, 'row')} predicted`,
+    `. Intervals at ${lvl}: "Mean" is the range for the average of cases like it, "One case" the range for a single case.`);
+  if (r.back_transform) {
+    el.predictFacts.append(` The model explains ${r.response}; the values on the scale of ${original} are back-transformed by ${r.back_transform}`,
+      typeof r.smearing === 'number' ? ` (smearing factor ${shortNumber(r.smearing, 6)}).` : '.');
+  }
+
+  renderCaseSummary(p, original);
+
+  const table = el.predictionsTable;
+  const thead = table.tHead;
+  thead.textContent = '';
+  const top = thead.insertRow();
+  const rowHead = p.source === 'case' ? 'Case' : ({ workbook: 'Sheet row', paste: 'Pasted row' }[p.format] || 'File row');
+  addCell(top, 'th', rowHead, { scope: 'col', rowSpan: 2, className: 'rownum-head' });
+  const scales = [[r.response, '']];
+  if (r.back_transform) scales.unshift([original, 'orig']);
+  for (const [name] of scales) {
+    const th = addCell(top, 'th', `${name}${name === r.response && r.back_transform ? ' (the model\'s scale)' : ''}`, { scope: 'colgroup', colSpan: PREDICTION_COLUMNS.length, className: 'group' });
+    th.title = name;
+  }
+  addCell(top, 'th', 'Leverage', { scope: 'col', rowSpan: 2, className: 'num' });
+  addCell(top, 'th', 'Notes', { scope: 'col', rowSpan: 2 });
+  const second = thead.insertRow();
+  for (const [name] of scales) {
+    for (const [, label] of PREDICTION_COLUMNS) {
+      const th = addCell(second, 'th', label, { scope: 'col', className: 'num' });
+      th.title = `${name}: ${label.toLowerCase()}${label === 'Estimate' ? '' : ` (${lvl})`}`;
+    }
+  }
+  const body = table.tBodies[0];
+  body.textContent = '';
+  const shown = r.predictions.slice(0, PREDICTION_ROWS_SHOWN);
+  for (const x of shown) {
+    const tr = body.insertRow();
+    addCell(tr, 'th', p.source === 'case' ? 'This case' : String(x.row), { scope: 'row', className: 'rownum' });
+    if (x.problem !== null) {
+      tr.className = 'problem';
+      const td = addCell(tr, 'td', x.problem, { className: 'row-problem' });
+      td.colSpan = PREDICTION_COLUMNS.length * scales.length + 2;
+      continue;
+    }
+    for (const [, which] of scales) {
+      const values = which === 'orig' ? x.original || {} : x;
+      for (const [key, label] of PREDICTION_COLUMNS) {
+        const sig = PREDICTION_COLUMNS.find((c) => c[0] === key)[2];
+        numberCell(tr, values[key], sig, `${which === 'orig' ? original : r.response}: ${label}`);
+      }
+    }
+    numberCell(tr, x.leverage, 3, 'Leverage');
+    const note = tr.insertCell();
+    note.className = 'row-note';
+    if (x.extrapolation) {
+      tr.className = 'extrapolation';
+      const mark = document.createElement('strong');
+      mark.className = 'extra-mark';
+      mark.textContent = 'outside the data';
+      note.append(mark);
+      // The reasons, in words, on a line of their own under the numbers.
+      const why = body.insertRow();
+      why.className = 'reason-row';
+      const td = addCell(why, 'td', `${p.source === 'case' ? 'This case' : `${rowHead} ${x.row}`} is outside the data: ${x.extrapolation_reasons.join('; ')}.`, { className: 'reasons' });
+      td.colSpan = PREDICTION_COLUMNS.length * scales.length + 3;
+    } else {
+      note.textContent = 'within the data';
+    }
+  }
+  if (r.predictions.length > shown.length) {
+    const tr = body.insertRow();
+    const td = addCell(tr, 'td', `The first ${shown.length} of ${r.predictions.length} rows are listed; Copy predictions copies all of them.`, { className: 'more' });
+    td.colSpan = PREDICTION_COLUMNS.length * scales.length + 3;
+  }
+
+  el.predictNotes.textContent = '';
+  for (const n of r.notes) addItem(el.predictNotes, n);
+  el.predictNotesBlock.hidden = r.notes.length === 0;
+  el.predictCautions.textContent = '';
+  for (const c of r.cautions) addItem(el.predictCautions, c);
+  el.copyPredictionsStatus.textContent = '';
+}
+
+/** The one case's prediction in a sentence, on the scale the user knows. */
+function renderCaseSummary(p, original) {
+  const box = $('case-summary');
+  box.textContent = '';
+  box.hidden = p.source !== 'case';
+  if (box.hidden) return;
+  const x = p.report.predictions[0];
+  if (!x || x.problem !== null) {
+    box.textContent = x ? x.problem : 'The case could not be predicted.';
+    return;
+  }
+  const v = original && x.original ? x.original : x;
+  const name = original || p.report.response;
+  const big = document.createElement('span');
+  big.className = 'big';
+  big.textContent = shortNumber(v.estimate, 5);
+  big.title = `${name}: ${full(v.estimate)}`;
+  box.append(`${name}: `, big, `. For the average of cases like this one, ${shortNumber(v.ci_low, 5)} to ${shortNumber(v.ci_high, 5)}; `
+    + `for this one case, ${shortNumber(v.pi_low, 5)} to ${shortNumber(v.pi_high, 5)} (${percent(p.report.level)} intervals).`);
+  if (x.extrapolation) box.append(` It lies outside the data: ${x.extrapolation_reasons.join('; ')}, so this is an extrapolation and may be far off.`);
+}
+
+// ------------------------------------------------------------- take it with you
+
+/** Calls an export of the wasm in the worker; resolves with its `ok`, or throws an Error in plain words. */
+async function exportCall(fn, args) {
+  let answer;
+  try {
+    answer = await engine.exportCall(fn, args);
+  } finally {
+    state.exportsDone += 1;
+  }
+  if (answer.error) throw new Error(answer.error);
+  return answer.ok;
+}
+
+/** After a fit: the step with the formula, the files and the session. */
+function showKeepFor() {
+  el.keep.hidden = false;
+  clearMessage(el.keepMessage);
+  el.filesStatus.textContent = '';
+  el.sessionStatus.textContent = '';
+  if (state.formula && state.formula.request !== state.fitRequest) {
+    el.formulaStatus.textContent = 'The formula below is of an earlier model; press Write the formula to update it.';
+  }
+  const load = state.data.inspection.load;
+  if (!el.formulaRow.value || el.formulaRow.dataset.auto === 'yes') {
+    el.formulaRow.value = String(load.header_row + 1);
+    el.formulaRow.dataset.auto = 'yes';
+  }
+}
+
+/** Spreadsheet column letters of a 0-based column position (0 → A, 26 → AA). */
+function columnLetters(i) {
+  let n = i + 1;
+  let out = '';
+  while (n > 0) {
+    const r = (n - 1) % 26;
+    out = String.fromCharCode(65 + r) + out;
+    n = Math.floor((n - 1) / 26);
+  }
+  return out;
+}
+
+function renderFormulaCells(info) {
+  for (const f of el.formulaCells.querySelectorAll('input[data-column]')) state.cellLetters.set(f.dataset.column, f.value);
+  el.formulaCells.textContent = '';
+  const header = state.data.inspection.preview.header;
+  info.inputs.forEach((input, i) => {
+    const id = `formula-cell-${i + 1}`;
+    const label = document.createElement('label');
+    label.className = 'formula-cell';
+    label.htmlFor = id;
+    const name = document.createElement('span');
+    name.className = 'case-label';
+    name.textContent = input.column;
+    const box = document.createElement('input');
+    box.type = 'text';
+    box.id = id;
+    box.className = 'letters';
+    box.autocomplete = 'off';
+    box.spellcheck = false;
+    box.dataset.column = input.column;
+    box.setAttribute('aria-label', `Sheet column of ${input.column}`);
+    const at = header.indexOf(input.column);
+    box.value = state.cellLetters.get(input.column) ?? (at >= 0 ? columnLetters(at) : '');
+    label.append(name, box);
+    el.formulaCells.append(label);
+  });
+}
+
+async function writeFormula() {
+  if (!state.fitRequest) return;
+  const cells = {};
+  for (const f of el.formulaCells.querySelectorAll('input[data-column]')) {
+    const v = f.value.trim().toUpperCase();
+    if (v) cells[f.dataset.column] = v;
+    state.cellLetters.set(f.dataset.column, f.value);
+  }
+  const rowText = el.formulaRow.value.trim();
+  if (!/^\d+$/.test(rowText) || Number(rowText) < 1) {
+    showMessage(el.keepMessage, `The first row must be a whole number, 1 or more, not "${el.formulaRow.value}".`);
+    el.formulaRow.focus();
+    return;
+  }
+  const request = {
+    ...state.fitRequest,
+    cells,
+    first_row: Number(rowText),
+    separator: el.formulaSeparator.value,
+    decimal_comma: el.formulaComma.checked,
+  };
+  clearMessage(el.keepMessage);
+  el.formulaButton.disabled = true;
+  el.formulaStatus.textContent = 'Writing…';
+  const fitRequest = state.fitRequest;
+  try {
+    const f = await exportCall('formula_bytes', [state.data.bytes, JSON.stringify(request)]);
+    state.formula = { ...f, request: fitRequest };
+    el.formulaText.value = f.formula;
+    el.formulaFirst.textContent = String(request.first_row);
+    el.formulaNotes.textContent = '';
+    for (const n of f.notes) addItem(el.formulaNotes, n);
+    el.formulaOut.hidden = false;
+    el.formulaCopyStatus.textContent = '';
+    el.formulaStatus.textContent = f.scale === 'response' ? 'Written: it gives the prediction of the response itself.' : 'Written: it gives the prediction of the transformed response the model explains.';
+  } catch (e) {
+    el.formulaStatus.textContent = '';
+    showMessage(el.keepMessage, `The formula could not be written. ${e.message}`);
+  } finally {
+    el.formulaButton.disabled = false;
+  }
+}
+
+/** The user's clock, as the files record it: 2026-12-02 10:30. */
+function localDate() {
+  const d = new Date();
+  const two = (n) => String(n).padStart(2, '0');
+  return `${d.getFullYear()}-${two(d.getMonth() + 1)}-${two(d.getDate())} ${two(d.getHours())}:${two(d.getMinutes())}`;
+}
+
+/** The data's name without its extension, fit for a file name. */
+function baseName() {
+  const name = state.data ? state.data.fileName : 'plumbline';
+  return name.replace(/\.[A-Za-z0-9]{1,5}$/, '').replace(/[^\p{L}\p{N}._-]+/gu, '-').replace(/^-+|-+$/g, '') || 'plumbline';
+}
+
+/** Offers bytes or text as a download (a blob: URL inside the page, never the network). */
+function download(name, type, content) {
+  const url = URL.createObjectURL(new Blob([content], { type }));
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = name;
+  a.hidden = true;
+  document.body.append(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 60000);
+}
+
+/** The SHA-256 of the data's bytes, from the wasm, once per data. */
+async function dataFingerprint() {
+  const d = state.data;
+  if (!d.sha256) d.sha256 = await exportCall('sha256_hex', [d.bytes]);
+  return d.sha256;
+}
+
+/** The choices made on this page, in plain words, for the report. */
+async function choicesInWords() {
+  const d = state.data;
+  const out = [];
+  for (const [column, kind] of Object.entries(d.kinds)) {
+    out.push(`"${column}" was set by you to ${KIND_WORDS[kind] || kind} (the data suggested ${KIND_WORDS[d.detected[column]] || d.detected[column]}).`);
+  }
+  for (const c of await exportCall('model_choices', [JSON.stringify(state.fitRequest)])) out.push(c);
+  if (state.fitRequest.hc3) out.push('HC3 robust standard errors were asked for as well.');
+  if (!el.staleNote.hidden) out.push('The choices on the page changed after this fit; the files hold the fit shown.');
+  if (state.selection && !el.chooseStale.hidden) out.push('The comparison of candidates was run before the last changes of the choices.');
+  return out;
+}
+
+/** Everything the workbook and the report are made of: what the page shows. */
+async function buildBundle() {
+  const d = state.data;
+  const load = d.inspection.load;
+  const current = (x) => x && x.request === state.fitRequest;
+  const plots = [];
+  if (current(state.check)) {
+    for (const canvas of el.plots.querySelectorAll('canvas')) {
+      const url = canvas.toDataURL('image/png');
+      plots.push({ title: canvas.dataset.title || canvas.dataset.figure, png_base64: url.slice(url.indexOf(',') + 1) });
+    }
+  }
+  return {
+    source: { file_name: d.fileName, sha256: await dataFingerprint(), sheet: load.sheet, header_row: load.header_row },
+    choices: await choicesInWords(),
+    fit: state.report,
+    check: current(state.check) ? state.check.report : null,
+    select: state.selection,
+    predict: current(state.prediction) ? state.prediction.report : null,
+    formula: current(state.formula) ? state.formula.formula : null,
+    plots,
+    date: localDate(),
+  };
+}
+
+async function downloadFile(kind) {
   if (!state.report) return;
-  const text = tableAsText(state.report);
-  let done = false;
+  const button = kind === 'workbook' ? el.workbookButton : el.reportButton;
+  clearMessage(el.keepMessage);
+  button.disabled = true;
+  el.filesStatus.textContent = kind === 'workbook' ? 'Making the workbook…' : 'Making the report…';
+  try {
+    const bundle = JSON.stringify(await buildBundle());
+    if (kind === 'workbook') {
+      const b64 = await exportCall('export_workbook', [bundle]);
+      const name = `${baseName()}-results.xlsx`;
+      download(name, 'application/vnd.openxmlformats-officedocument.spreadsheetml.sheet', base64ToBytes(b64));
+      el.filesStatus.textContent = `Saved ${name}.`;
+    } else {
+      const html = await exportCall('export_report', [bundle]);
+      const name = `${baseName()}-report.html`;
+      download(name, 'text/html', html);
+      el.filesStatus.textContent = `Saved ${name}.`;
+    }
+  } catch (e) {
+    el.filesStatus.textContent = '';
+    showMessage(el.keepMessage, `The ${kind === 'workbook' ? 'workbook' : 'report'} could not be made. ${e.message}`);
+  } finally {
+    button.disabled = false;
+  }
+}
+
+/** The choices on the page, as a session file records them. */
+function sessionRequest() {
+  const d = state.data;
+  const built = buildRequest();
+  const model = built.request ? {
+    response: built.request.response,
+    terms: built.request.terms,
+    intercept: built.request.intercept,
+    weights: null,
+    exclude_rows: [...state.excluded],
+    level: built.request.level,
+    hc3: built.request.hc3,
+  } : null;
+  const stability = el.stability.checked && /^\d+$/.test(el.resamples.value.trim()) ? Number(el.resamples.value.trim()) : null;
+  return {
+    file_name: d.fileName,
+    ...readRequest(d),
+    saved: localDate(),
+    kinds: { ...d.kinds },
+    level_names: {},
+    excluded_columns: [],
+    model,
+    selection: { candidates: el.candidates.value, force: el.force.value, by: el.chooseBy.value, search: el.searchWay.value, folds: 5, seed: 1, stability },
+    include_data: el.sessionData.checked,
+  };
+}
+
+async function saveSession() {
+  if (!state.data) return;
+  clearMessage(el.keepMessage);
+  el.sessionSave.disabled = true;
+  el.sessionStatus.textContent = 'Saving…';
+  try {
+    const text = await exportCall('session_save', [state.data.bytes, JSON.stringify(sessionRequest())]);
+    const name = `${baseName()}-session.json`;
+    download(name, 'application/json', text);
+    el.sessionStatus.textContent = `Saved ${name}${el.sessionData.checked ? ', with a copy of the data' : ''}.`;
+  } catch (e) {
+    el.sessionStatus.textContent = '';
+    showMessage(el.keepMessage, `The session could not be saved. ${e.message}`);
+  } finally {
+    el.sessionSave.disabled = false;
+  }
+}
+
+/** A response term as the page's two controls hold it, or null when they cannot. */
+function responseControls(text) {
+  const m = /^(log|sqrt)\((.*)\)$/.exec(text.trim());
+  const transform = m ? m[1] : '';
+  let inner = (m ? m[2] : text).trim();
+  if (/^"(?:[^"]|"")*"$/.test(inner)) inner = inner.slice(1, -1).replace(/""/g, '"');
+  else if (!/^[\p{Alphabetic}_][\p{Alphabetic}\p{N}_.]*$/u.test(inner)) return null;
+  return { column: inner, transform };
+}
+
+/** Puts a session's choices into the page's controls; says what it could not. */
+function applyChoices(session) {
+  const notes = [];
+  const m = session.model;
+  if (m) {
+    const r = responseControls(m.response);
+    const names = state.data.inspection.preview.header;
+    if (!r) notes.push(`The session's response, ${m.response}, is not a column, its log or its square root, which is what this page can choose; choose the response yourself.`);
+    else if (!names.includes(r.column)) notes.push(`The session's response column "${r.column}" is not in these data.`);
+    else {
+      el.responseColumn.value = r.column;
+      el.responseTransform.value = r.transform;
+    }
+    el.terms.value = m.terms;
+    el.intercept.checked = m.intercept;
+    el.level.value = String(Number((m.level * 100).toPrecision(12)));
+    el.hc3.checked = m.hc3;
+    state.excluded = [...m.exclude_rows];
+    state.excludedUndo = [];
+    renderExcluded();
+    if (m.weights) notes.push(`The session weights the rows by "${m.weights}"; this page fits without weights.`);
+    updateResponsePreview();
+  }
+  const s = session.selection;
+  if (s) {
+    el.candidates.value = s.candidates;
+    state.candidatesEdited = true;
+    el.force.value = s.force;
+    if ([...el.chooseBy.options].some((o) => o.value === s.by)) el.chooseBy.value = s.by;
+    if ([...el.searchWay.options].some((o) => o.value === s.search)) el.searchWay.value = s.search;
+    el.stability.checked = s.stability !== null;
+    if (s.stability !== null) el.resamples.value = String(s.stability);
+  }
+  if (session.level_names && Object.keys(session.level_names).length) notes.push('The session names some category codes; this page shows the codes as they are in the data.');
+  if (session.excluded_columns && session.excluded_columns.length) notes.push(`The session leaves out the columns ${session.excluded_columns.join(', ')}; they are simply not in the terms here.`);
+  renderColumns();
+  return notes;
+}
+
+function showSessionNotes(lines) {
+  el.sessionNotes.textContent = '';
+  for (const l of lines) addItem(el.sessionNotes, l);
+  el.sessionBlock.hidden = lines.length === 0;
+}
+
+async function openSession(file) {
+  if (!file) return;
+  clearMessage(el.dataMessage);
+  showSessionNotes([]);
+  try {
+    await openSessionFile(file);
+  } finally {
+    state.sessionsOpened += 1;
+  }
+}
+
+async function openSessionFile(file) {
+  const big = tooBig(file);
+  if (big) {
+    showMessage(el.dataMessage, `${big}${keptNote()}`);
+    return;
+  }
+  let text;
+  try {
+    text = await file.text();
+  } catch (e) {
+    showMessage(el.dataMessage, `"${file.name}" could not be read from the disk: ${e.message}${keptNote()}`);
+    return;
+  }
+  let opened;
+  try {
+    opened = await exportCall('session_open', [text, state.data ? state.data.bytes : new Uint8Array(0)]);
+  } catch (e) {
+    showMessage(el.dataMessage, `The session "${file.name}" could not be opened: ${e.message}${keptNote()}`);
+    return;
+  }
+  const { session, mismatches, blocking } = opened;
+  const src = session.source;
+  const read = {};
+  if (src.paste) read.paste = true;
+  if (src.sheet !== null) read.sheet = src.sheet;
+  if (src.header_row !== null) read.header_row = src.header_row;
+  if (opened.data_base64) {
+    const ok = await loadBytes(`${src.file_name} (from the session)`, base64ToBytes(opened.data_base64), { paste: src.paste, fileName: src.file_name });
+    if (!ok) return;
+  }
+  const d = state.data;
+  const now = d.read;
+  if ((read.sheet !== undefined && read.sheet !== d.inspection.load.sheet) || (read.header_row !== undefined && read.header_row !== d.inspection.load.header_row)) {
+    if (!(await reinspect({ read: { ...now, ...read } }))) return;
+  }
+  if (Object.keys(session.kinds).length || Object.keys(d.kinds).length) {
+    if (!(await reinspect({ kinds: { ...session.kinds } }))) return;
+  }
+  const notes = [`Opened the session "${file.name}"${session.saved ? `, saved ${session.saved}` : ''}${opened.data_base64 ? ', with the copy of the data it keeps' : ''}.`];
+  for (const mm of mismatches) notes.push(mm.message);
+  notes.push(...applyChoices(session));
+  if (blocking) {
+    clearResult();
+    notes.push('Its model cannot be fitted to these data, so it was not fitted; the choices that fit these data are in place.');
+    showSessionNotes(notes);
+    return;
+  }
+  showSessionNotes(notes);
+  if (session.model) await runFit();
+}
+
+async function copyTsv(what, result, button, status, count) {
+  if (!result) return;
+  status.textContent = '';
+  let text;
+  try {
+    text = await exportCall('export_tsv', [what, JSON.stringify(result)]);
+  } catch (e) {
+    status.textContent = `Could not copy: ${e.message}`;
+    return;
+  }
+  const done = await copyText(text, button);
+  if (done) state.copied = text;
+  status.textContent = done ? `Copied ${plural(count, 'row')}, tab-separated, with every digit.` : 'The browser did not allow copying.';
+}
+
+// ------------------------------------------------------------------ copy
+
+/**
+ * Puts text on the clipboard; where the browser does not allow that, a
+ * hidden text box is selected and copied instead. Resolves with true when
+ * the text was copied.
+ */
+async function copyText(text, button) {
   try {
     if (navigator.clipboard && navigator.clipboard.writeText) {
       await navigator.clipboard.writeText(text);
-      done = true;
+      return true;
     }
   } catch (_) {
-    done = false;
+    // Not allowed here (a file:// page in some browsers): the fallback below.
   }
-  if (!done) {
-    const ta = document.createElement('textarea');
-    ta.value = text;
-    ta.setAttribute('readonly', '');
-    ta.className = 'offscreen';
-    document.body.append(ta);
-    ta.select();
-    try { done = document.execCommand('copy'); } catch (_) { done = false; }
-    ta.remove();
-    el.copyButton.focus();
-  }
-  el.copyStatus.textContent = done
-    ? `Copied ${plural(state.report.coefficients.length, 'row')}, tab-separated, with every digit.`
-    : 'The browser did not allow copying.';
+  const ta = document.createElement('textarea');
+  ta.value = text;
+  ta.setAttribute('readonly', '');
+  ta.setAttribute('aria-hidden', 'true');
+  ta.tabIndex = -1;
+  ta.className = 'offscreen';
+  document.body.append(ta);
+  ta.select();
+  let done = false;
+  try { done = document.execCommand('copy'); } catch (_) { done = false; }
+  ta.remove();
+  if (button) button.focus();
+  return done;
+}
+
+function copyTable() {
+  if (!state.report) return Promise.resolve();
+  return copyTsv('coefficients', state.report, el.copyButton, el.copyStatus, state.report.coefficients.length);
+}
+
+function copyPredictions() {
+  if (!state.prediction) return Promise.resolve();
+  return copyTsv('predictions', state.prediction.report, el.copyPredictions, el.copyPredictionsStatus, state.prediction.report.predictions.length);
+}
+
+function copyCandidates() {
+  if (!state.selection) return Promise.resolve();
+  return copyTsv('candidates', state.selection, el.copyCandidates, el.copyCandidatesStatus, state.selection.comparison.length);
 }
 
 // ---------------------------------------------------------------- wiring
@@ -1934,6 +2828,40 @@ el.candidates.addEventListener('keydown', (e) => {
 });
 el.stopButton.addEventListener('click', stopSearch);
 el.checkButton.addEventListener('click', () => { runCheck(); });
+el.caseForm.addEventListener('submit', (e) => {
+  e.preventDefault();
+  if (!el.caseButton.disabled) predictCase();
+});
+el.casesFile.addEventListener('change', () => {
+  const f = el.casesFile.files && el.casesFile.files[0];
+  loadCases(f).finally(() => { el.casesFile.value = ''; });
+});
+el.casesPasteButton.addEventListener('click', () => { predictPasted(); });
+el.casesSheet.addEventListener('change', () => {
+  if (!state.newCases) return;
+  state.newCases.read = { ...state.newCases.read, sheet: el.casesSheet.value };
+  predictCases();
+});
+el.copyPredictions.addEventListener('click', () => { copyPredictions(); });
+el.copyCandidates.addEventListener('click', () => { copyCandidates(); });
+el.formulaForm.addEventListener('submit', (e) => {
+  e.preventDefault();
+  if (!el.formulaButton.disabled) writeFormula();
+});
+el.formulaRow.addEventListener('input', () => { el.formulaRow.dataset.auto = 'no'; });
+el.formulaCopy.addEventListener('click', async () => {
+  if (!state.formula) return;
+  const done = await copyText(el.formulaText.value, el.formulaCopy);
+  if (done) state.copied = el.formulaText.value;
+  el.formulaCopyStatus.textContent = done ? 'Copied the formula, with every digit of the coefficients.' : 'The browser did not allow copying; select the formula and copy it yourself.';
+});
+el.workbookButton.addEventListener('click', () => { downloadFile('workbook'); });
+el.reportButton.addEventListener('click', () => { downloadFile('report'); });
+el.sessionSave.addEventListener('click', () => { saveSession(); });
+el.sessionFile.addEventListener('change', () => {
+  const f = el.sessionFile.files && el.sessionFile.files[0];
+  openSession(f).finally(() => { el.sessionFile.value = ''; });
+});
 
 // Drop a file anywhere on the page.
 let dragDepth = 0;
@@ -1987,8 +2915,34 @@ window.plumblineTest = {
   inspectsDone() {
     return state.inspectsDone;
   },
+  /** The largest file the page reads, in bytes. */
+  maxFileBytes() {
+    return MAX_FILE_BYTES;
+  },
+  /** How many predictions started from the page have been answered. */
+  predictsDone() {
+    return state.predictsDone;
+  },
+  /** How many exports (formula, copies, files, sessions) have been answered. */
+  exportsDone() {
+    return state.exportsDone;
+  },
+  /** How many session files have been dealt with, opened or refused. */
+  sessionsOpened() {
+    return state.sessionsOpened;
+  },
+  /** The wasm's prediction through the worker, as the page asks for it. */
+  predict(dataText, newText, request) {
+    const enc = new TextEncoder();
+    return engine.predict(enc.encode(dataText), enc.encode(newText), request);
+  },
+  /** Resolves with the error the page got when the wasm panicked for real. */
+  realPanic() {
+    return engine.realPanicForTest().then(() => null, (e) => ({ name: e.name, kind: e.kind, message: e.message }));
+  },
+  /** The text last put on the clipboard by a Copy button. */
   copiedText() {
-    return state.report ? tableAsText(state.report) : null;
+    return state.copied;
   },
   /** How many searches started from the page have ended (answered or stopped). */
   searchesDone() {

@@ -224,9 +224,48 @@ export class Engine {
     return this.send({ type: 'select', bytes, request: text }, onProgress || null);
   }
 
+  /**
+   * The columns the model of a fit request reads, for the one-case form.
+   * Resolves with the parsed `{ok: {response, transformed, inputs}}` or
+   * `{error, kind}`; rejects as `fit` does.
+   */
+  modelInputs(bytes, request) {
+    const text = typeof request === 'string' ? request : JSON.stringify(request);
+    return this.send({ type: 'inputs', bytes, request: text });
+  }
+
+  /**
+   * Predicts new cases. Resolves with the parsed `{ok: PredictReport}` or
+   * `{error, kind}`; rejects as `fit` does.
+   * @param {Uint8Array} bytes  the data the model is fitted to
+   * @param {Uint8Array} newBytes  the new cases (a file, a paste or the form's row)
+   * @param {object|string} request  a fit request with `new: {paste, sheet, header_row, decimal}`
+   */
+  predict(bytes, newBytes, request) {
+    const text = typeof request === 'string' ? request : JSON.stringify(request);
+    return this.send({ type: 'predict', bytes, newBytes, request: text });
+  }
+
+  /**
+   * Calls one of the wasm's exports by name in the worker (formula_bytes,
+   * export_tsv, export_workbook, export_report, sha256_hex, session_save,
+   * session_open, model_choices). Resolves with the parsed `{ok}` or
+   * `{error, kind}`; rejects as `fit` does.
+   * @param {string} fn
+   * @param {Array<string|Uint8Array>} args  its arguments in order
+   */
+  exportCall(fn, args) {
+    return this.send({ type: 'export', fn, args });
+  }
+
   /** Test hook: the worker answers as if the wasm had panicked. */
   pretendPanicForTest() {
     return this.send({ type: 'pretend-panic' });
+  }
+
+  /** Test hook: the wasm panics for real (panic_for_test). */
+  realPanicForTest() {
+    return this.send({ type: 'real-panic' });
   }
 
   /** Test hook: makes the worker throw, as a crash would. */

@@ -1,11 +1,16 @@
 // The worker: loads the wasm and answers inspect, fit, check and select
 // messages. It holds no statistics; every number comes from the wasm
-// (`inspect`, `fit_bytes`, `check_bytes`, `select_bytes`).
+// (`inspect`, `fit_bytes`, `check_bytes`, `select_bytes`, `model_inputs`,
+// `predict_bytes`), and so does every export (the formula, tab-separated
+// text, the workbook, the report, SHA-256 and the session file).
 //
 // The build (www/tools/inline.mjs) puts the wasm-bindgen glue in front of
 // this file and removes the import line below, so that the whole worker is
 // one module that starts from a data: URL.
-import { initSync, check_bytes, fit_bytes, inspect, last_panic, select_bytes } from './plumbline.js';
+import {
+  initSync, check_bytes, export_report, export_tsv, export_workbook, fit_bytes, formula_bytes, inspect, last_panic,
+  model_choices, model_inputs, panic_for_test, predict_bytes, select_bytes, session_open, session_save, sha256_hex,
+} from './plumbline.js';
 
 // Messages in:
 //   {type: 'init', wasm: Uint8Array}              -> {type: 'ready'} | {type: 'failed', message}
@@ -13,6 +18,10 @@ import { initSync, check_bytes, fit_bytes, inspect, last_panic, select_bytes } f
 //   {type: 'fit', id, bytes: Uint8Array, request}
 //   {type: 'check', id, bytes: Uint8Array, request}
 //   {type: 'select', id, bytes: Uint8Array, request}
+//   {type: 'inputs', id, bytes: Uint8Array, request}   (the model's input columns)
+//   {type: 'predict', id, bytes: Uint8Array, newBytes: Uint8Array, request}
+//   {type: 'export', id, fn, args}   one of the exports below, with its
+//                                     arguments in order (text or bytes)
 //                                                  -> {type: 'result', id, json}
 //                                                  | {type: 'panic', id, message}
 //     a select also sends {type: 'progress', id, share} on the way, share
@@ -21,6 +30,9 @@ import { initSync, check_bytes, fit_bytes, inspect, last_panic, select_bytes } f
 //   {type: 'die', id}  (test hook) throws outside any handler, so that the
 //                      page sees the worker's error event.
 //   {type: 'pretend-panic', id}  (test hook) answers as a panic would.
+//   {type: 'real-panic', id}  (test hook) calls the wasm's panic_for_test,
+//                      which panics inside Rust: the panic hook's message
+//                      comes back as a panic answer.
 let ready = false;
 
 /** At most this often (ms) a progress message, unless the share moved a lot. */
@@ -50,11 +62,37 @@ function progressPoster(id) {
   };
 }
 
+/**
+ * The exports the page may call by name (src/wasm_export.rs and
+ * src/wasm.rs); each answers JSON text. sha256_hex answers the bare
+ * digest, so it is wrapped the same way.
+ */
+const EXPORTS = {
+  formula_bytes: (bytes, request) => formula_bytes(bytes, request),
+  export_tsv: (what, resultJson) => export_tsv(what, resultJson),
+  export_workbook: (bundleJson) => export_workbook(bundleJson),
+  export_report: (bundleJson) => export_report(bundleJson),
+  sha256_hex: (bytes) => JSON.stringify({ ok: sha256_hex(bytes) }),
+  session_save: (bytes, request) => session_save(bytes, request),
+  session_open: (sessionText, bytes) => session_open(sessionText, bytes),
+  model_choices: (request) => model_choices(request),
+};
+
+function runExport(msg) {
+  const f = Object.prototype.hasOwnProperty.call(EXPORTS, msg.fn) ? EXPORTS[msg.fn] : null;
+  if (!f) return JSON.stringify({ error: `The page asked for an export the calculation does not have (${String(msg.fn)}).`, kind: 'request' });
+  return f(...(msg.args || []));
+}
+
 function run(msg) {
   switch (msg.type) {
     case 'fit': return fit_bytes(msg.bytes, msg.request);
     case 'check': return check_bytes(msg.bytes, msg.request);
     case 'select': return select_bytes(msg.bytes, msg.request, progressPoster(msg.id));
+    case 'inputs': return model_inputs(msg.bytes, msg.request);
+    case 'predict': return predict_bytes(msg.bytes, msg.newBytes, msg.request);
+    case 'export': return runExport(msg);
+    case 'real-panic': return panic_for_test();
     default: return inspect(msg.bytes, msg.request);
   }
 }
@@ -75,7 +113,11 @@ self.onmessage = (event) => {
     case 'inspect':
     case 'fit':
     case 'check':
-    case 'select': {
+    case 'select':
+    case 'inputs':
+    case 'predict':
+    case 'export':
+    case 'real-panic': {
       if (!ready) {
         self.postMessage({ type: 'panic', id: msg.id, message: 'The calculation part of the page was not ready.' });
         return;
