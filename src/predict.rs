@@ -84,13 +84,13 @@ type Inverse = (String, Box<dyn Fn(f64) -> f64>);
 /// The inverse of the response transform, when there is one.
 fn inverse(response: &Term) -> Option<Inverse> {
     match response {
-        Term::Log(inner) if matches!(**inner, Term::Column(_)) => Some(("exp, with Duan's smearing".into(), Box::new(f64::exp))),
+        Term::Log(inner) if matches!(**inner, Term::Column(_)) => Some(("exp, with Duan's smearing".into(), Box::new(libm::exp))),
         Term::Sqrt(inner) if matches!(**inner, Term::Column(_)) => Some(("square, with Duan's smearing".into(), Box::new(|v: f64| v.max(0.0) * v.max(0.0)))),
         Term::BoxCox(inner, l) if matches!(**inner, Term::Column(_)) => {
             let l = *l;
             Some((
                 format!("inverse Box–Cox (λ = {l}), with Duan's smearing"),
-                Box::new(move |v: f64| if l == 0.0 { v.exp() } else { (1.0 + l * v).max(0.0).powf(1.0 / l) }),
+                Box::new(move |v: f64| if l == 0.0 { libm::exp(v) } else { libm::pow((1.0 + l * v).max(0.0), 1.0 / l) }),
             ))
         }
         Term::YeoJohnson(inner, l) if matches!(**inner, Term::Column(_)) => {
@@ -99,11 +99,11 @@ fn inverse(response: &Term) -> Option<Inverse> {
                 format!("inverse Yeo–Johnson (λ = {l}), with Duan's smearing"),
                 Box::new(move |v: f64| {
                     if v >= 0.0 {
-                        if l == 0.0 { v.exp_m1() } else { ((l * v).ln_1p() / l).exp_m1() }
+                        if l == 0.0 { libm::expm1(v) } else { libm::expm1(libm::log1p(l * v) / l) }
                     } else if l == 2.0 {
-                        -(-v).exp_m1()
+                        -libm::expm1(-v)
                     } else {
-                        -(((2.0 - l) * -v).ln_1p() / (2.0 - l)).exp_m1()
+                        -libm::expm1(libm::log1p((2.0 - l) * -v) / (2.0 - l))
                     }
                 }),
             ))
@@ -155,7 +155,7 @@ fn raw_residuals(fitted: &Fitted) -> Vec<f64> {
 /// Duan's smearing factor for a log response: the mean of exp(eᵢ).
 pub fn log_smearing(fitted: &Fitted) -> f64 {
     let r = raw_residuals(fitted);
-    r.iter().map(|e| e.exp()).sum::<f64>() / r.len() as f64
+    r.iter().map(|&e| libm::exp(e)).sum::<f64>() / r.len() as f64
 }
 
 /// Predicts the rows of `new` from a model fitted to `training`.

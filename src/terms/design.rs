@@ -4,7 +4,8 @@
 //!
 //! Derived columns (powers, products, square roots) are computed in
 //! double-double, so that x¹⁰ carries the digits an `f64` would round away;
-//! logarithms are computed in `f64` (correctly rounded to within an ulp).
+//! logarithms are computed in `f64` by `libm` (within an ulp, and the same
+//! bits natively and in wasm, whose standard libraries differ).
 
 use super::parse::Term;
 use crate::lstsq::dd::DD;
@@ -480,7 +481,7 @@ impl EvalContext<'_> {
             }
             Term::Log(t) => {
                 let v = self.positive(t, "log")?;
-                Value::Number(v.iter().map(|x| DD::from_f64(x.to_f64().ln())).collect())
+                Value::Number(v.iter().map(|x| DD::from_f64(libm::log(x.to_f64()))).collect())
             }
             Term::BoxCox(t, l) => {
                 let v = self.positive(t, "boxcox")?;
