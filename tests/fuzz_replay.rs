@@ -212,6 +212,30 @@ fn terms(data: &[u8]) -> Result<(), String> {
     }
 }
 
+/// The `session` target: a session that opens writes back to an equal one;
+/// one that does not is refused with a message.
+fn session(data: &[u8]) -> Result<(), String> {
+    use plumbline::export::session::Session;
+    let Ok(text) = std::str::from_utf8(data) else { return Ok(()) };
+    match Session::from_json(text) {
+        Ok(s) => {
+            match Session::from_json(&s.to_json()) {
+                Ok(back) if back == s => {}
+                Ok(_) => return Err("the session reads back different".into()),
+                Err(e) => return Err(format!("the session does not read back: {e}")),
+            }
+            if let Err(e) = s.data_bytes() {
+                check_message("data_bytes", e.to_string())?;
+            }
+            if let Err(e) = s.model_spec() {
+                check_message("model_spec", e.to_string())?;
+            }
+            Ok(())
+        }
+        Err(e) => check_message("Session::from_json", e.to_string()),
+    }
+}
+
 type Target = fn(&[u8]) -> Result<(), String>;
 
 /// Runs `target` on each file under `catch_unwind`; returns the failures.
@@ -276,13 +300,18 @@ fn terms_corpus_replays() {
     assert_none(replay(&corpus("terms"), "terms", terms));
 }
 
+#[test]
+fn session_corpus_replays() {
+    assert_none(replay(&corpus("session"), "session", session));
+}
+
 const ONE_FILE: &str = "PLUMBLINE_FUZZ_REPLAY_FILE";
 
 /// The targets a regression replays through: `<target>-<short-name>`
-/// through that target, any other name through all three.
+/// through that target, any other name through all four.
 fn targets_for(name: &str) -> Vec<(&'static str, Target)> {
-    let all: [(&'static str, Target); 3] =
-        [("read_text", read_text), ("read_workbook", read_workbook_target), ("terms", terms)];
+    let all: [(&'static str, Target); 4] =
+        [("read_text", read_text), ("read_workbook", read_workbook_target), ("terms", terms), ("session", session)];
     let own: Vec<_> = all.iter().copied().filter(|(t, _)| name.starts_with(&format!("{t}-"))).collect();
     if own.is_empty() {
         all.to_vec()
