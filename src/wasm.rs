@@ -8,7 +8,7 @@
 
 use crate::model::{fit, FitOptions};
 use crate::profile::{profile_table, Kind, ProfileOptions};
-use crate::read::{read_paste, read_table, Loaded, ReadOptions};
+use crate::read::{read_paste_progress, read_table_progress, Loaded, Progress, ReadOptions};
 use crate::schema::LoadSummary;
 use crate::terms::{parse_term, parse_terms, ModelSpec};
 use serde::{Deserialize, Serialize};
@@ -60,11 +60,17 @@ impl ReadRequest {
     }
 
     pub(crate) fn load(&self, bytes: &[u8]) -> Result<Loaded, String> {
+        self.load_progress(bytes, &mut |_| true)
+    }
+
+    /// As [`ReadRequest::load`], telling `progress` the share read so far;
+    /// when it answers false the reading stops (`ReadError::Stopped`).
+    pub(crate) fn load_progress(&self, bytes: &[u8], progress: Progress) -> Result<Loaded, String> {
         let options = self.options();
         let loaded = if self.paste {
-            read_paste(&String::from_utf8_lossy(bytes), &options)
+            read_paste_progress(&String::from_utf8_lossy(bytes), &options, progress)
         } else {
-            read_table(bytes, &options)
+            read_table_progress(bytes, &options, progress)
         };
         loaded.map_err(|e| e.to_string())
     }
@@ -141,6 +147,45 @@ struct Inspection {
     load: LoadSummary,
     columns: Vec<crate::profile::ColumnProfile>,
     preview: Preview,
+    /// Column → its codes, for each coded category with at most
+    /// [`MAX_CODES_TO_NAME`] of them: the values the user may give names to
+    /// on the page, written as the design labels a category's levels.
+    codes: std::collections::BTreeMap<String, Vec<String>>,
+}
+
+/// The most codes a coded category may have for the page to offer naming them.
+const MAX_CODES_TO_NAME: usize = 60;
+
+/// The distinct values of a column, written and ordered as the design
+/// writes and orders a category's levels (`terms::design`: numbers as
+/// numbers, including text cells that all read as numbers; text as text),
+/// or None when there are more than [`MAX_CODES_TO_NAME`].
+fn category_codes(data: &crate::table::ColumnData) -> Option<Vec<String>> {
+    use crate::table::{parse_number, ColumnData};
+    let numbers = |mut v: Vec<f64>| {
+        v.sort_by(|a, b| a.total_cmp(b));
+        v.dedup();
+        v
+    };
+    let labels: Vec<String> = match data {
+        ColumnData::Numeric(v) => numbers(v.iter().copied().filter(|x| !x.is_nan()).collect()).iter().map(|x| format!("{x}")).collect(),
+        ColumnData::Date(v) => numbers(v.iter().copied().filter(|x| !x.is_nan()).collect())
+            .iter()
+            .map(|&x| crate::read::cells::format_date(x))
+            .collect(),
+        ColumnData::Text(cells) => {
+            let texts: Vec<&str> = cells.iter().flatten().map(String::as_str).collect();
+            if texts.iter().all(|s| parse_number(s).is_some()) {
+                numbers(texts.iter().filter_map(|s| parse_number(s)).collect()).iter().map(|x| format!("{x}")).collect()
+            } else {
+                let mut t: Vec<&str> = texts;
+                t.sort_unstable();
+                t.dedup();
+                t.into_iter().map(String::from).collect()
+            }
+        }
+    };
+    (labels.len() <= MAX_CODES_TO_NAME).then_some(labels)
 }
 
 fn cell_text(data: &crate::table::ColumnData, i: usize) -> Option<String> {
@@ -152,15 +197,36 @@ fn cell_text(data: &crate::table::ColumnData, i: usize) -> Option<String> {
     }
 }
 
-/// Reads the bytes and returns how they were read, the column profile and
-/// the first rows; `request` is the JSON of an inspect request.
+/// Reads the bytes and returns how they were read, the column profile, the
+/// first rows and the codes of the coded categories; `request` is the JSON
+/// of an inspect request.
 #[wasm_bindgen]
 pub fn inspect(bytes: &[u8], request: &str) -> String {
+    inspect_with(bytes, request, &mut |_| true)
+}
+
+/// As [`inspect`], calling `progress` with the share of the file read so
+/// far (0 to 1, now and then, from both passes over delimited text; a
+/// workbook only before and after its sheet). When `progress` returns
+/// `false` the reading stops and the answer is the error of kind `read`
+/// that says so. The page's worker uses it to move a progress bar; the page
+/// cancels a load by ending the worker, since a running call cannot hear a
+/// message.
+#[wasm_bindgen]
+pub fn inspect_progress(bytes: &[u8], request: &str, progress: &js_sys::Function) -> String {
+    let mut report = |share: f64| {
+        // Anything but an explicit `false` (undefined, a throw) goes on.
+        progress.call1(&JsValue::NULL, &JsValue::from_f64(share)).map(|v| v.as_bool() != Some(false)).unwrap_or(true)
+    };
+    inspect_with(bytes, request, &mut report)
+}
+
+fn inspect_with(bytes: &[u8], request: &str, progress: Progress) -> String {
     let req: InspectRequest = match serde_json::from_str(if request.trim().is_empty() { "{}" } else { request }) {
         Ok(r) => r,
         Err(e) => return error("request", &format!("The request is not valid: {e}")),
     };
-    let loaded = match req.read.load(bytes) {
+    let loaded = match req.read.load_progress(bytes, progress) {
         Ok(l) => l,
         Err(e) => return error("read", &format!("Could not read the file: {e}")),
     };
@@ -179,7 +245,14 @@ pub fn inspect(bytes: &[u8], request: &str) -> String {
         source_rows: t.source_rows[..n].to_vec(),
         rows: (0..n).map(|i| t.columns.iter().map(|c| cell_text(&c.data, i)).collect()).collect(),
     };
-    ok(&Inspection { load: LoadSummary::of(&loaded), columns: profile.columns, preview })
+    let codes = profile
+        .columns
+        .iter()
+        .zip(&t.columns)
+        .filter(|(p, _)| p.kind == Kind::CodedCategory)
+        .filter_map(|(p, c)| category_codes(&c.data).map(|codes| (p.name.clone(), codes)))
+        .collect();
+    ok(&Inspection { load: LoadSummary::of(&loaded), columns: profile.columns, preview, codes })
 }
 
 /// A fitted model with its table and specification, or the error JSON.
@@ -517,4 +590,18 @@ pub fn model_choices(request: &str) -> String {
     };
     let spec = ModelSpec { response, terms, intercept: req.intercept, weights: req.weights, exclude: req.read.exclude_rows };
     ok(&crate::export::term_choices(&spec))
+}
+
+/// The model of a fit result in plain algebra
+/// (`crate::export::report::equation`, the report's own), for the page's
+/// Result. `fit_json` is the `ok` payload of a fit, or the part of it the
+/// equation reads (`response`, and each coefficient's `term`, `estimate`
+/// and `aliased`); the page sends the coefficients' labels with the names
+/// the user gave their codes. Returns `{ok: "log(y) = 1.2 + …"}`.
+#[wasm_bindgen]
+pub fn equation_text(fit_json: &str) -> String {
+    match serde_json::from_str::<serde_json::Value>(fit_json) {
+        Ok(v) => ok(&crate::export::report::equation(&v)),
+        Err(e) => error("request", &format!("The result for the equation is not valid: {e}")),
+    }
 }

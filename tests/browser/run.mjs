@@ -8,7 +8,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { createRequire } from 'node:module';
 import { execFileSync, spawnSync } from 'node:child_process';
-import { existsSync, mkdirSync, readFileSync, readdirSync, statSync, truncateSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, readdirSync, statSync, truncateSync, unlinkSync, writeFileSync } from 'node:fs';
 import { isDeepStrictEqual } from 'node:util';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
@@ -1059,6 +1059,95 @@ test('a file larger than the page reads is refused before it is read, and the ta
   assert.deepEqual(pageErrors, []);
 });
 
+/** A CSV of about 40 MB: 400,000 rows of 10 numeric columns, seeded. */
+function largeCsv() {
+  const rnd = seeded(20261202);
+  const names = ['y', ...Array.from({ length: 9 }, (_, i) => `x${i + 1}`)];
+  const lines = [names.join(',')];
+  for (let r = 0; r < 400000; r++) {
+    const cells = [];
+    for (let j = 0; j < 10; j++) cells.push((rnd() * 10000).toFixed(5));
+    lines.push(cells.join(','));
+  }
+  return `${lines.join('\n')}\n`;
+}
+
+test('a large file shows how much is read, Cancel ends the load and keeps what was open; a load allowed to finish opens it', { timeout: 300000 }, async () => {
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  await page.selectOption('#response-transform', 'sqrt');
+  await page.fill('#terms', 'log(floor_area_m2), cat(climate_zone)');
+  await page.fill('#level', '90');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(6);
+  const coefBefore = await coefTableFromPage();
+  assert.ok(await page.isHidden('#load-block'), 'no bar while nothing loads');
+  const big = join(shots, 'large-40mb.csv');
+  writeFileSync(big, largeCsv());
+  const size = statSync(big).size;
+  assert.ok(size > 38e6 && size < 48e6, `about 40 MB (${size} bytes)`);
+  try {
+    // Every value the bar takes, from the page itself.
+    await page.evaluate(() => {
+      window.loadSeen = [];
+      const bar = document.getElementById('load-progress');
+      new MutationObserver(() => window.loadSeen.push(Number(bar.getAttribute('aria-valuenow'))))
+        .observe(bar, { attributes: true, attributeFilter: ['aria-valuenow'] });
+    });
+    const workersBefore = workers.length;
+    const before = await page.evaluate(() => window.plumblineTest.inspectsDone());
+    // A path, not a buffer: the browser reads the file from the disk as a user's would.
+    await page.setInputFiles('#file-input', big);
+    await page.locator('#load-block').waitFor({ state: 'visible', timeout: 60000 });
+    assert.equal(await page.getAttribute('#load-progress', 'role'), 'progressbar');
+    await page.waitForFunction(() => Number(document.getElementById('load-progress').getAttribute('aria-valuenow')) > 0, null, { timeout: 60000 });
+    const first = Number(await page.getAttribute('#load-progress', 'aria-valuenow'));
+    await page.waitForFunction((n) => Number(document.getElementById('load-progress').getAttribute('aria-valuenow')) > n, first, { timeout: 60000 });
+    assert.ok(await page.isVisible('#load-cancel'), 'Cancel is offered while it loads');
+    assert.match(await page.textContent('#load-status'), /^(?:Reading "large-40mb\.csv"…|Read "large-40mb\.csv"; looking at its columns…)$/);
+    assert.match(await page.textContent('#load-percent'), /^\d+%$/);
+    assert.match(await page.getAttribute('#load-progress', 'aria-valuetext'), /^\d+% of "large-40mb\.csv" read$/);
+    await page.locator('#data').screenshot({ path: join(shots, '22b-loading-a-large-file.png') });
+    await page.click('#load-cancel');
+    await page.waitForFunction((n) => window.plumblineTest.inspectsDone() > n, before, { timeout: 20000 });
+    const msg = await visibleText('#data-message');
+    assert.equal(msg, 'Loading "large-40mb.csv" was cancelled, so it was not opened. The data already open ("building-energy.csv (invented demo data)") are still loaded.');
+    assert.ok(await page.isHidden('#load-block'), 'the bar goes');
+    const seen = await page.evaluate(() => window.loadSeen);
+    const between = seen.filter((v) => v > 0 && v < 100);
+    assert.ok(new Set(between).size >= 2, `the bar moved (${seen.join(', ')})`);
+    assert.ok(seen.every((v, i) => i === 0 || v >= seen[i - 1]), `the bar never goes back (${seen.join(', ')})`);
+    for (let i = 0; i < 50 && workers.length === workersBefore; i++) await page.waitForTimeout(100);
+    assert.equal(workers.length, workersBefore + 1, 'the worker was ended and a fresh one started');
+    // What was open before stays: the data, the choices and the result.
+    assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data, 10 columns/);
+    assert.equal(await page.locator('#preview tbody tr').count(), 10);
+    assert.equal(await page.inputValue('#response-column'), 'energy_mwh');
+    assert.equal(await page.inputValue('#response-transform'), 'sqrt');
+    assert.equal(await page.inputValue('#terms'), 'log(floor_area_m2), cat(climate_zone)');
+    assert.equal(await page.inputValue('#level'), '90');
+    assert.deepEqual(await coefTableFromPage(), coefBefore, 'the result stays');
+    await afterFit(() => page.click('#fit-button'));
+    assert.deepEqual(await coefTableFromPage(), coefBefore, 'the fresh worker fits the data kept');
+    assert.ok(await page.isHidden('#model-message'));
+
+    // The same file, allowed to finish, opens.
+    await page.evaluate(() => { window.loadSeen = []; });
+    await page.setInputFiles('#file-input', big);
+    await page.locator('#data-facts').filter({ hasText: 'large-40mb.csv' }).waitFor({ timeout: 240000 });
+    assert.equal(await page.textContent('#data-facts'), 'large-40mb.csv: 400000 rows of data, 10 columns.');
+    assert.ok(await page.isHidden('#data-message'), 'no problem shown');
+    assert.ok(await page.isHidden('#load-block'), 'the bar goes when the data are open');
+    assert.deepEqual(await page.$$eval('#preview thead th', (ths) => ths.slice(1).map((t) => t.textContent)), ['y', 'x1', 'x2', 'x3', 'x4', 'x5', 'x6', 'x7', 'x8', 'x9']);
+    assert.equal(await page.locator('#columns-table tbody tr').count(), 10);
+    const again = await page.evaluate(() => window.loadSeen);
+    assert.ok(again.some((v) => v > 0 && v < 100), `the bar moved on the way (${again.join(', ')})`);
+    assert.deepEqual(pageErrors, []);
+  } finally {
+    unlinkSync(big);
+  }
+});
+
 test('the bad-input corpus through the file input: a plain message, and the data and choices already there stay', { timeout: 120000 }, async () => {
   const badDir = join(root, 'tests', 'data', 'bad');
   const expected = JSON.parse(readFileSync(join(badDir, 'expected.json'), 'utf8'));
@@ -1828,6 +1917,152 @@ test('Exports: copies of the comparison, the formula, the workbook, the report a
   await openFresh();
   await openSessionThroughPage(ses.name, ses.bytes);
   assert.match(await visibleText('#data-message'), /The session does not keep the data; load the data file first, then open the session\./);
+});
+
+test('the codes of a coded category get names: shown beside the codes, undoable, saved in the session and said in the report', { timeout: 180000 }, async () => {
+  await openFresh();
+  const drawn = await page.evaluate(() => window.plumblineTest.figuresDrawn());
+  await afterFit(() => page.click('#demo-button'));
+  await checksDrawn(drawn);
+  const zone = columnRow('climate_zone');
+  const coefBefore = await coefTableFromPage();
+  assert.deepEqual(coefBefore.slice(1, 5).map((r) => r.term), ['climate_zone=2', 'climate_zone=3', 'climate_zone=4', 'climate_zone=5']);
+  // Offered for a coded category only.
+  assert.equal(await zone.locator('button.name-codes').textContent(), 'Name the codes');
+  assert.equal(await zone.locator('button.name-codes').getAttribute('aria-label'), 'Name the codes of climate_zone');
+  for (const c of ['hvac_type', 'floor_area_m2', 'site_code', 'retrofit']) assert.equal(await columnRow(c).locator('button.name-codes').count(), 0, `${c}: no naming`);
+  await page.locator('#equation').waitFor({ state: 'visible', timeout: 10000 });
+  assert.match(await page.textContent('#equation'), /^log\(energy_mwh\) = 0\.5159 \+ 0\.136 × \[climate_zone is 2\] /, 'the equation, from the wasm');
+
+  await zone.locator('button.name-codes').click();
+  const editor = page.locator('#columns-table tr.codes-editor');
+  await editor.waitFor({ timeout: 5000 });
+  const inputs = editor.locator('input');
+  assert.deepEqual(await inputs.evaluateAll((is) => is.map((i) => [i.dataset.code, i.getAttribute('aria-label')])),
+    ['1', '2', '3', '4', '5'].map((k) => [k, `Name of code ${k} of climate_zone`]), 'one box per code of the data');
+  assert.equal(await page.evaluate(() => document.activeElement.dataset.code), '1', 'the focus goes to the first box');
+  // Bad names: a plain message, nothing changed, what was typed stays.
+  await inputs.nth(0).fill('coastal');
+  await inputs.nth(1).fill('Coastal');
+  await editor.locator('button.use-names').click();
+  assert.equal(await editor.locator('.message').textContent(),
+    'Each code needs a name of its own: codes 1 and 2 are both called "Coastal". Change one of them; nothing has changed yet.');
+  assert.equal(await page.getAttribute('#columns-table tr.codes-editor .message', 'role'), 'alert');
+  assert.equal(await inputs.nth(0).inputValue(), 'coastal', 'what was typed stays');
+  assert.equal(await page.evaluate(() => document.activeElement.dataset.code), '2', 'the focus goes to the box to change');
+  await inputs.nth(1).fill('x'.repeat(61));
+  await inputs.nth(1).press('Enter');
+  assert.match(await editor.locator('.message').textContent(), /^A name can have at most 60 characters; the name of code 2 is longer\./);
+  assert.deepEqual(await coefTableFromPage(), coefBefore, 'nothing changed');
+  assert.ok(await page.isDisabled('#undo-button'), 'nothing to undo');
+  // Good names; Enter uses them.
+  await inputs.nth(1).fill('inland');
+  await inputs.nth(2).fill('  highland ');
+  await inputs.nth(2).press('Enter');
+  await editor.waitFor({ state: 'detached', timeout: 5000 });
+  const sentence = 'The codes of climate_zone are named: 1 = coastal, 2 = inland, 3 = highland.';
+  assert.equal(await page.textContent('#columns-status'), `${sentence} Undo takes them back.`);
+  assert.equal(await zone.locator('.code-names').textContent(), 'Named: 1 = coastal, 2 = inland, 3 = highland');
+  assert.equal(await page.evaluate(() => document.activeElement.className), 'name-codes', 'the focus goes back to the button');
+  await page.screenshot({ path: join(shots, '17b-codes-named.png'), clip: await page.locator('#columns').boundingBox() });
+
+  // Labels only: the same model, the same numbers, the names beside the codes.
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS, 'the terms still use the codes');
+  assert.ok(await page.isHidden('#stale-note'), 'the fit is still the one shown');
+  const coefNamed = await coefTableFromPage();
+  assert.deepEqual(coefNamed.map((r) => r.term), ['(intercept)', 'climate_zone=2 (inland)', 'climate_zone=3 (highland)', 'climate_zone=4', 'climate_zone=5',
+    ...coefBefore.slice(5).map((r) => r.term)]);
+  assert.deepEqual(coefNamed.map((r) => r.cells), coefBefore.map((r) => r.cells), 'the same numbers');
+  assert.deepEqual(await page.$$eval('#coef-table tbody th', (ths) => ths.slice(1, 3).map((t) => t.dataset.term)), ['climate_zone=2', 'climate_zone=3']);
+  await page.waitForFunction(() => document.getElementById('equation').textContent.includes('[climate_zone is 2 (inland)]'), null, { timeout: 10000 });
+  assert.match(await page.textContent('#equation'), /0\.136 × \[climate_zone is 2 \(inland\)\] − 0\.05029 × \[climate_zone is 3 \(highland\)\] \+ 0\.3247 × \[climate_zone is 4\]/);
+  assert.ok(await page.isVisible('#names-copy-hint'));
+  // Copies keep the codes.
+  await context.grantPermissions(['clipboard-read', 'clipboard-write']);
+  await page.click('#copy-button');
+  await page.locator('#copy-status').filter({ hasText: 'Copied' }).waitFor({ timeout: 5000 });
+  const copied = (await page.evaluate(() => navigator.clipboard.readText())).split('\n').map((l) => l.split('\t')[0]);
+  assert.deepEqual(copied.slice(2, 4), ['climate_zone=2', 'climate_zone=3'], 'the copy has the codes, not the names');
+  // The Predict form lists the levels with their names; the values sent are the codes.
+  const options = await page.$$eval('#case-fields [data-column="climate_zone"] option', (os) => os.slice(1).map((o) => [o.value, o.textContent]));
+  assert.deepEqual(options, [['1', '1 (coastal)'], ['2', '2 (inland)'], ['3', '3 (highland)'], ['4', '4'], ['5', '5']]);
+  assert.match(await page.textContent('#case-fields .case-field:has([data-column="climate_zone"]) .case-range'), /the model compares them with 1 \(coastal\)$/);
+  const first = { climate_zone: '1', floor_area_m2: '2436', occupants: '101', building_age: '80', mean_outdoor_temp_c: '17.5', hvac_type: 'district heat', retrofit: '0' };
+  for (const [k, v] of Object.entries(first)) {
+    const sel = `#case-fields [data-column="${k}"]`;
+    if (await page.$eval(sel, (e) => e.tagName === 'SELECT')) await page.selectOption(sel, v);
+    else await page.fill(sel, v);
+  }
+  await afterPredict(() => page.click('#case-button'));
+  assert.match(await page.textContent('#predict-facts'), /^The case in the form: climate_zone = 1 \(coastal\), floor_area_m2 = 2436, /);
+  const newPath = join(shots, 'new-cases.csv');
+  writeFileSync(newPath, NEW_CASES_CSV);
+  const cliPred = cliPredict(demoCsv, newPath, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
+  assertPredictionRow((await predictionsFromPage())[0], cliPred.predictions[0], 'the named case: the model of the codes');
+  // A case with a code the model never saw lists the known codes with their names.
+  await afterPredict(() => page.setInputFiles('#cases-file', { name: 'zone-9.csv', mimeType: 'text/csv',
+    buffer: Buffer.from(NEW_CASES_CSV.split('\n')[0] + '\nN-9,9,1500,40,20,12,gas boiler,0\n') }));
+  assert.equal((await predictionsFromPage())[0].note,
+    'Row 2 has "9" in "climate_zone", a value the model never saw (it knows 1 (coastal), 2 (inland), 3 (highland), 4, 5); it cannot be predicted.');
+  // A candidate with a named reference level shows the name in the comparison.
+  await page.fill('#candidates', 'cat(climate_zone, ref=3), log(floor_area_m2)');
+  await afterSearch(() => page.click('#search-button'));
+  const sets = await page.$$eval('#comparison-table tbody th', (ths) => ths.map((t) => t.textContent));
+  assert.ok(sets.some((t) => t.includes('cat(climate_zone, ref=3 (highland))')), `the candidates name the reference (${sets.join(' | ')})`);
+  assert.equal(await page.textContent('#comparison-names'), 'Names of codes (labels only; the sets use the codes): climate_zone 1 = coastal, 2 = inland, 3 = highland.');
+
+  // Undo takes the names back everywhere.
+  await page.click('#undo-button');
+  assert.equal(await page.textContent('#columns-status'), 'Undone: the codes of climate_zone have no names again.');
+  assert.deepEqual((await coefTableFromPage()).map((r) => r.term), coefBefore.map((r) => r.term));
+  assert.deepEqual(await page.$$eval('#case-fields [data-column="climate_zone"] option', (os) => os.slice(1).map((o) => o.textContent)), ['1', '2', '3', '4', '5']);
+  await page.waitForFunction(() => !document.getElementById('equation').textContent.includes('(inland)'), null, { timeout: 10000 });
+  assert.match(await page.textContent('#equation'), /0\.136 × \[climate_zone is 2\] − 0\.05029 × \[climate_zone is 3\] /);
+  assert.ok((await page.$$eval('#comparison-table tbody th', (ths) => ths.map((t) => t.textContent))).every((t) => !t.includes('highland')));
+  assert.ok(await page.isHidden('#comparison-names'));
+  assert.equal(await zone.locator('.code-names').count(), 0);
+  assert.ok(await page.isDisabled('#undo-button'), 'the names were the only change');
+  assert.equal(await page.inputValue('#terms'), DEMO_TERMS, 'Undo of the names leaves the terms');
+
+  // Named again, and a column left out as an identifier: the session keeps both.
+  await zone.locator('button.name-codes').click();
+  await inputs.nth(0).fill('coastal');
+  await inputs.nth(1).fill('inland');
+  await inputs.nth(2).fill('highland');
+  await editor.locator('button.use-names').click();
+  await afterInspect(() => columnRow('building_age').locator('select').selectOption('identifier'));
+  await columnRow('building_age').locator('.by-you').waitFor({ timeout: 10000 });
+  assert.equal(await zone.locator('.code-names').textContent(), 'Named: 1 = coastal, 2 = inland, 3 = highland', 'a kind change elsewhere keeps the names');
+  const ses = await downloadOf('#session-save');
+  const saved = JSON.parse(ses.bytes.toString('utf8'));
+  assert.deepEqual(saved.level_names, { climate_zone: { 1: 'coastal', 2: 'inland', 3: 'highland' } });
+  assert.deepEqual(saved.excluded_columns, ['building_age']);
+  assert.deepEqual(saved.kinds, { building_age: 'identifier' });
+  // The report says so among the choices.
+  const rep = await downloadOf('#report-button');
+  const html = rep.bytes.toString('utf8');
+  assert.ok(html.includes(sentence), 'the report has the sentence');
+  assert.ok(html.includes('&quot;building_age&quot; was set by you to identifier') || html.includes('"building_age" was set by you to identifier'), 'and the column left out');
+
+  // A fresh page: the same data, then the session: the names and the column left out come back.
+  await openFresh();
+  await afterFit(() => page.click('#demo-button'));
+  assert.equal(await zone.locator('.code-names').count(), 0);
+  await afterFit(() => openSessionThroughPage(ses.name, ses.bytes));
+  assert.equal(await zone.locator('.code-names').textContent(), 'Named: 1 = coastal, 2 = inland, 3 = highland');
+  assert.deepEqual((await coefTableFromPage()).map((r) => r.term), coefNamed.map((r) => r.term), 'the names are back in the table');
+  assert.equal(await columnRow('building_age').locator('select').inputValue(), 'identifier');
+  assert.equal(await columnRow('building_age').locator('td.actions').textContent(), 'left out: labels rows');
+  await page.locator('#case-fields [data-column="climate_zone"]').waitFor({ timeout: 15000 });
+  assert.deepEqual(await page.$$eval('#case-fields [data-column="climate_zone"] option', (os) => os.slice(1, 3).map((o) => o.textContent)), ['1 (coastal)', '2 (inland)']);
+  // A session that leaves a column out only by excluded_columns leaves it out too; names of a column the data lack are said, not used.
+  const other = { ...saved, kinds: {}, excluded_columns: ['occupants'], level_names: { ...saved.level_names, no_such_column: { 1: 'a' } } };
+  await afterFit(() => openSessionThroughPage('other.json', Buffer.from(JSON.stringify(other))));
+  assert.equal(await columnRow('occupants').locator('select').inputValue(), 'identifier');
+  assert.equal(await columnRow('building_age').locator('select').inputValue(), 'numeric');
+  assert.match(await page.textContent('#session-notes'), /The session names the codes of "no_such_column", which these data do not have; those names are not used\./);
+  assert.equal(await zone.locator('.code-names').textContent(), 'Named: 1 = coastal, 2 = inland, 3 = highland');
+  assert.deepEqual(pageErrors, []);
 });
 
 /** Presses Tab until the focus is on the element with this id; fails after `most` presses. */

@@ -1,9 +1,12 @@
 // UI wiring: loading a table, looking at its columns, choosing a model and
 // its terms, showing the result and its checks. No statistics here: the
 // table, its column profile and every number shown come from the wasm
-// (`inspect`, `fit_bytes`, `select_bytes`, `check_bytes`), and the figures
-// are drawn by it (`draw_figure`). Text from the file or the result goes
-// into the page with textContent only.
+// (`inspect_progress`, `fit_bytes`, `select_bytes`, `check_bytes`, the
+// equation from `equation_text`), and the figures are drawn by it
+// (`draw_figure`). Text from the file or the result goes into the page with
+// textContent only. The names the user gives to the codes of a category are
+// labels of the page's own: requests carry the codes, and the names are
+// written beside them where a level is shown.
 import { Engine, EngineError, Painter, base64ToBytes } from './engine.js';
 
 const PREVIEW_ROWS = 10;
@@ -23,10 +26,20 @@ const INFLUENTIAL_ROWS = 10;
 const MAX_FILE_BYTES = 256 * 1024 * 1024;
 /** Predictions listed on the page; Copy predictions copies all of them. */
 const PREDICTION_ROWS_SHOWN = 500;
+/** A load still running after this long (ms) shows its progress bar and Cancel. */
+const LOAD_BAR_AFTER_MS = 250;
+/** The longest name of a code, in characters. */
+const MAX_CODE_NAME = 60;
 
 const $ = (id) => document.getElementById(id);
 const el = {
   fileInput: $('file-input'),
+  loadBlock: $('load-block'),
+  loadStatus: $('load-status'),
+  loadProgress: $('load-progress'),
+  loadProgressBar: $('load-progress-bar'),
+  loadPercent: $('load-percent'),
+  loadCancel: $('load-cancel'),
   demoButton: $('demo-button'),
   pasteText: $('paste-text'),
   pasteButton: $('paste-button'),
@@ -65,6 +78,10 @@ const el = {
   modelLine: $('model-line'),
   rowsLine: $('rows-line'),
   coefTable: $('coef-table'),
+  namesCopyHint: $('names-copy-hint'),
+  equationBlock: $('equation-block'),
+  equation: $('equation'),
+  equationHint: $('equation-hint'),
   copyButton: $('copy-button'),
   copyStatus: $('copy-status'),
   hc3Block: $('hc3-block'),
@@ -97,6 +114,7 @@ const el = {
   recommendUse: $('recommend-use'),
   searchFacts: $('search-facts'),
   comparisonTable: $('comparison-table'),
+  comparisonNames: $('comparison-names'),
   routeIntro: $('route-intro'),
   routeSteps: $('route-steps'),
   pathBlock: $('path-block'),
@@ -210,6 +228,11 @@ const state = {
   copied: null, // the text last put on the clipboard (for the tests)
   exportsDone: 0, // exports answered, good or bad (for the tests)
   sessionsOpened: 0, // session files dealt with, opened or refused (for the tests)
+  levelNames: {}, // column -> {code: name}: the names the user gave to the codes of a category
+  naming: null, // {column, values: {code: text typed}, problem} while the names of a column's codes are edited
+  loading: null, // {name, share, shown, cancelled, timer} of the load whose progress the Data step shows
+  stoppedBy: null, // 'search' or 'load': what the user ended the worker for, last
+  equationSeq: 0,
 };
 
 // ---------------------------------------------------------------- messages
@@ -256,16 +279,82 @@ function readRequest(d) {
   return r;
 }
 
-/** Asks the wasm to read and profile the bytes. Resolves with its answer or
- *  rejects with an EngineError (which the engine has already reported). */
-async function inspectBytes(bytes, read, kinds) {
+/**
+ * Asks the wasm to read and profile the bytes. Resolves with its answer or
+ * rejects with an EngineError (which the engine has already reported; kind
+ * 'stopped' when the user cancelled the load). With `load` (from
+ * `startLoad`), the Data step shows how much of the file is read, and a
+ * Cancel button, while it runs.
+ */
+async function inspectBytes(bytes, read, kinds, load = null) {
   const request = { ...read, preview_rows: PREVIEW_ROWS };
   if (kinds && Object.keys(kinds).length) request.kinds = kinds;
   try {
-    return await engine.inspect(bytes, request);
+    return await engine.inspect(bytes, request, load ? (share) => loadProgress(load, share) : null);
   } finally {
+    if (load) endLoad(load);
     state.inspectsDone += 1;
   }
+}
+
+// ------------------------------------------------------- a load under way
+
+/**
+ * A load of the data about to start: its bar and Cancel button appear only
+ * if it is still running after LOAD_BAR_AFTER_MS, so a small file never
+ * flashes them. `verb` says what is done ("Reading", "Reading again").
+ */
+function startLoad(name, verb = 'Reading') {
+  if (state.loading) endLoad(state.loading);
+  const load = { name, verb, share: 0, shown: false, cancelled: false, timer: null };
+  load.timer = setTimeout(() => {
+    if (state.loading !== load) return;
+    load.shown = true;
+    el.loadBlock.hidden = false;
+    renderLoad(load);
+  }, LOAD_BAR_AFTER_MS);
+  state.loading = load;
+  return load;
+}
+
+function loadProgress(load, share) {
+  load.share = share;
+  if (load.shown && state.loading === load) renderLoad(load);
+}
+
+function renderLoad(load) {
+  const pct = Math.max(0, Math.min(100, Math.floor(load.share * 100)));
+  el.loadProgress.setAttribute('aria-valuenow', String(pct));
+  el.loadProgress.setAttribute('aria-valuetext', `${pct}% of "${load.name}" read`);
+  el.loadProgressBar.style.width = `${pct}%`;
+  el.loadPercent.textContent = `${pct}%`;
+  // The status is read out when it changes, so it changes only twice; the bar tells the share.
+  const status = pct >= 100 ? `Read "${load.name}"; looking at its columns…` : `${load.verb} "${load.name}"…`;
+  if (el.loadStatus.textContent !== status) el.loadStatus.textContent = status;
+}
+
+function endLoad(load) {
+  clearTimeout(load.timer);
+  if (state.loading !== load) return;
+  state.loading = null;
+  const refocus = document.activeElement === el.loadCancel;
+  el.loadBlock.hidden = true;
+  // The Cancel button goes away: keep the focus in the step.
+  if (refocus) el.fileInput.focus();
+}
+
+/** Cancel: ends the worker, and with it the load (a running call hears no message). */
+function cancelLoad() {
+  const load = state.loading;
+  if (!load) return;
+  load.cancelled = true;
+  state.stoppedBy = 'load';
+  engine.stop('Cancelled.');
+}
+
+/** How a calculation the user did not stop himself was ended, for its message. */
+function stoppedWords() {
+  return state.stoppedBy === 'load' ? 'when a load was cancelled' : 'together with the search';
 }
 
 function keptNote() {
@@ -292,11 +381,19 @@ async function loadBytes(name, bytes, { paste = false, fileName = name } = {}) {
   clearMessage(el.dataMessage);
   const read = paste ? { paste: true } : {};
   const seq = ++state.inspectSeq;
+  const load = startLoad(name);
   let answer;
   try {
-    answer = await inspectBytes(bytes, read, null);
+    answer = await inspectBytes(bytes, read, null, load);
   } catch (e) {
-    if (seq === state.inspectSeq) showMessage(el.dataMessage, `"${name}" could not be opened: ${e.message}${keptNote()}`);
+    if (seq !== state.inspectSeq) return false;
+    if (e instanceof EngineError && e.kind === 'stopped') {
+      showMessage(el.dataMessage, load.cancelled
+        ? `Loading "${name}" was cancelled, so it was not opened.${keptNote() || ' No data are open yet.'}`
+        : `Loading "${name}" was stopped ${stoppedWords()}; open it again to load it.${keptNote()}`);
+    } else {
+      showMessage(el.dataMessage, `"${name}" could not be opened: ${e.message}${keptNote()}`);
+    }
     return false;
   }
   if (seq !== state.inspectSeq) return false;
@@ -306,6 +403,8 @@ async function loadBytes(name, bytes, { paste = false, fileName = name } = {}) {
   }
   const inspection = answer.ok;
   state.data = { name, fileName, bytes, read, kinds: {}, detected: detectedKinds(inspection), inspection };
+  state.levelNames = {};
+  state.naming = null;
   state.undo = [];
   state.candidateUndo = [];
   state.candidatesEdited = false;
@@ -341,13 +440,18 @@ async function reinspect(change, focusAfter) {
   const kinds = change.kinds || (change.read ? {} : d.kinds);
   const seq = ++state.inspectSeq;
   clearMessage(el.dataMessage);
+  const load = startLoad(d.name, 'Reading again');
   let answer;
   try {
-    answer = await inspectBytes(d.bytes, readRequest({ read }), kinds);
+    answer = await inspectBytes(d.bytes, readRequest({ read }), kinds, load);
   } catch (e) {
     if (seq === state.inspectSeq) {
-      showMessage(el.dataMessage, `"${d.name}" could not be read again: ${e.message} The data stay as they were read before.`);
+      const stopped = e instanceof EngineError && e.kind === 'stopped';
+      showMessage(el.dataMessage, stopped
+        ? `Reading "${d.name}" again was ${load.cancelled ? 'cancelled' : `stopped ${stoppedWords()}`}. The data stay as they were read before.`
+        : `"${d.name}" could not be read again: ${e.message} The data stay as they were read before.`);
       renderReadControls();
+      if (state.data === d) renderColumns();
     }
     return false;
   }
@@ -364,6 +468,10 @@ async function reinspect(change, focusAfter) {
   if (change.read) {
     // Another sheet or header row: other columns, so the kinds found are new.
     d.detected = detectedKinds(answer.ok);
+    // Names of codes stay with the columns that are still there.
+    const names = new Set(answer.ok.preview.header);
+    for (const c of Object.keys(state.levelNames)) if (!names.has(c)) delete state.levelNames[c];
+    state.naming = null;
     // Other rows, numbered anew: what was left out no longer applies.
     state.excluded = [];
     state.excludedUndo = [];
@@ -639,8 +747,14 @@ function changeField(f, text, status) {
 function undoField(f) {
   const stack = f.stack();
   if (!stack.length) return;
-  f.input.value = stack.pop();
+  const before = stack.pop();
   f.undoButton.disabled = stack.length === 0;
+  // The Columns panel's Undo also takes back names given to codes.
+  if (typeof before !== 'string') {
+    undoNames(before);
+    return;
+  }
+  f.input.value = before;
   f.say(f.input.value ? `Undone: ${f.name} are back to ${f.input.value}.` : `Undone: ${f.name} are empty again.`);
   f.changed();
 }
@@ -754,6 +868,25 @@ function renderColumns() {
       mark.textContent = 'set by you';
       kindCell.append(' ', mark);
     }
+    const codes = codesOf(col.name);
+    if (codes && codes.length) {
+      const b = document.createElement('button');
+      b.type = 'button';
+      b.className = 'name-codes';
+      b.dataset.column = col.name;
+      b.textContent = namesOf(col.name) ? 'Rename the codes' : 'Name the codes';
+      b.setAttribute('aria-label', `${b.textContent} of ${col.name}`);
+      b.setAttribute('aria-expanded', String(!!state.naming && state.naming.column === col.name));
+      b.addEventListener('click', () => (state.naming && state.naming.column === col.name ? closeNaming() : openNaming(col.name)));
+      kindCell.append(b);
+    }
+    const named = namesList(col.name);
+    if (named) {
+      const list = document.createElement('span');
+      list.className = 'code-names';
+      list.textContent = `Named: ${named}`;
+      kindCell.append(list);
+    }
 
     // Both kinds of cell are read as missing and counted in `missing`.
     const among = [];
@@ -791,7 +924,272 @@ function renderColumns() {
       act.append(actionButton('Add', term, 'add'));
       if (col.kind === 'numeric' && col.suggested_transform) act.append(' ', actionButton('Add as is', quoteName(col.name), 'add-plain'));
     }
+    if (state.naming && state.naming.column === col.name && codes && codes.length) namingRow(body, col.name, codes);
   }
+}
+
+// ------------------------------------------------------ names of codes
+
+/** The names the user gave to the codes of a column, {code: name}, or null. */
+function namesOf(column) {
+  const m = Object.prototype.hasOwnProperty.call(state.levelNames, column) ? state.levelNames[column] : null;
+  return m && Object.keys(m).length ? m : null;
+}
+
+/** The codes of a coded category, as the wasm lists them (the model's level labels), or null. */
+function codesOf(column) {
+  const codes = state.data && state.data.inspection.codes;
+  return codes && Object.prototype.hasOwnProperty.call(codes, column) ? codes[column] : null;
+}
+
+/** The name of one code of a column, or null. */
+function nameOf(column, code) {
+  const m = namesOf(column);
+  return m && Object.prototype.hasOwnProperty.call(m, code) ? m[code] : null;
+}
+
+/** A level as the page shows it: the code, with its name beside it when it has one ("3 (coastal)"). */
+function levelText(column, level) {
+  const name = nameOf(column, level);
+  return name === null ? level : `${level} (${name})`;
+}
+
+/**
+ * A design column's label with the names of its codes beside them:
+ * climate_zone=3 → climate_zone=3 (coastal), also inside a product
+ * (climate_zone=3*retrofit). A label is its factors joined by "*", and a
+ * category's factor is column=level (src/terms/design.rs).
+ */
+function labelText(label) {
+  const named = Object.keys(state.levelNames).filter((c) => namesOf(c));
+  if (!named.length) return label;
+  let out = '';
+  let i = 0;
+  for (;;) {
+    for (const c of named) {
+      if (!label.startsWith(`${c}=`, i)) continue;
+      const from = i + c.length + 1;
+      const code = Object.keys(state.levelNames[c])
+        .filter((k) => label.startsWith(k, from) && (from + k.length === label.length || label[from + k.length] === '*'))
+        .sort((a, b) => b.length - a.length)[0];
+      if (code === undefined) continue;
+      out += `${c}=${code} (${state.levelNames[c][code]})`;
+      i = from + code.length;
+      break;
+    }
+    const star = label.indexOf('*', i);
+    if (star === -1) return out + label.slice(i);
+    out += label.slice(i, star + 1);
+    i = star + 1;
+  }
+}
+
+function unquoted(text) {
+  return /^"(?:[^"]|"")*"$/.test(text) ? text.slice(1, -1).replace(/""/g, '"') : text;
+}
+
+/** A term as written, with the name of a reference level beside it: cat(zone, ref=3) → cat(zone, ref=3 (coastal)). */
+function termText(term) {
+  if (!Object.keys(state.levelNames).length) return term;
+  return term.replace(/(cat\(\s*("(?:[^"]|"")*"|[^,()"]+?)\s*,\s*ref\s*=\s*)("(?:[^"]|"")*"|[^)\s]+)(\s*\))/g, (m, head, col, ref, tail) => {
+    const name = nameOf(unquoted(col.trim()), unquoted(ref));
+    return name === null ? m : `${head}${ref} (${name})${tail}`;
+  });
+}
+
+/** The names of a column's codes in the codes' order: "1 = coastal, 2 = inland", or ''. */
+function namesList(column) {
+  const m = namesOf(column);
+  if (!m) return '';
+  const order = (codesOf(column) || []).filter((k) => Object.prototype.hasOwnProperty.call(m, k));
+  const rest = Object.keys(m).filter((k) => !order.includes(k));
+  return [...order, ...rest].map((k) => `${k} = ${m[k]}`).join(', ');
+}
+
+/** The names of a column's codes in a sentence, as the report's choices say it. */
+function namesSentence(column) {
+  return `The codes of ${column} are named: ${namesList(column)}.`;
+}
+
+function copyNames(names) {
+  return Object.fromEntries(Object.entries(names).map(([c, m]) => [c, { ...m }]));
+}
+
+function openNaming(column) {
+  state.naming = { column, values: { ...(namesOf(column) || {}) }, problem: '' };
+  renderColumns();
+  const first = el.columnsTable.querySelector('tr.codes-editor input');
+  if (first) first.focus();
+}
+
+function focusNamingButton(column) {
+  const b = [...el.columnsTable.querySelectorAll('button.name-codes')].find((x) => x.dataset.column === column);
+  if (b) b.focus();
+}
+
+function closeNaming() {
+  const n = state.naming;
+  state.naming = null;
+  renderColumns();
+  if (n) focusNamingButton(n.column);
+}
+
+/** The editor of the names of a column's codes, as a row under the column's row. */
+function namingRow(body, column, codes) {
+  const n = state.naming;
+  const tr = body.insertRow();
+  tr.className = 'codes-editor';
+  tr.dataset.editor = column;
+  const td = tr.insertCell();
+  td.colSpan = el.columnsTable.tHead.rows[0].cells.length;
+  const form = document.createElement('form');
+  form.className = 'codes-form';
+  form.noValidate = true;
+  const title = document.createElement('p');
+  title.className = 'codes-title';
+  title.id = 'codes-title';
+  const strong = document.createElement('strong');
+  strong.textContent = `Names for the codes of ${column}`;
+  title.append(strong, '. They are labels only: the model still uses the codes, and copies keep the codes. Leave a box empty for a code without a name.');
+  form.setAttribute('aria-labelledby', title.id);
+  const fields = document.createElement('div');
+  fields.className = 'codes-fields';
+  codes.forEach((code, i) => {
+    const id = `code-name-${i + 1}`;
+    const label = document.createElement('label');
+    label.className = 'code-field';
+    label.htmlFor = id;
+    const c = document.createElement('span');
+    c.className = 'code';
+    c.textContent = code;
+    const input = document.createElement('input');
+    input.type = 'text';
+    input.id = id;
+    input.dataset.code = code;
+    input.autocomplete = 'off';
+    input.spellcheck = false;
+    input.setAttribute('aria-label', `Name of code ${code} of ${column}`);
+    input.value = Object.prototype.hasOwnProperty.call(n.values, code) ? n.values[code] : '';
+    input.addEventListener('input', () => { n.values[code] = input.value; });
+    label.append(c, input);
+    fields.append(label);
+  });
+  const buttons = document.createElement('div');
+  buttons.className = 'codes-buttons';
+  const use = document.createElement('button');
+  use.type = 'submit';
+  use.className = 'use-names';
+  use.textContent = 'Use these names';
+  const cancel = document.createElement('button');
+  cancel.type = 'button';
+  cancel.className = 'cancel-names';
+  cancel.textContent = 'Cancel';
+  cancel.addEventListener('click', closeNaming);
+  buttons.append(use, cancel);
+  const problem = document.createElement('p');
+  problem.className = 'message';
+  problem.setAttribute('role', 'alert');
+  problem.textContent = n.problem;
+  problem.hidden = !n.problem;
+  form.append(title, fields, buttons, problem);
+  form.addEventListener('submit', (e) => {
+    e.preventDefault();
+    applyNaming();
+  });
+  form.addEventListener('keydown', (e) => {
+    if (e.key === 'Escape') {
+      e.preventDefault();
+      closeNaming();
+    }
+  });
+  td.append(form);
+}
+
+/** Checks the names typed and puts them in place (undoable), or says what is wrong and keeps them. */
+function applyNaming() {
+  const n = state.naming;
+  if (!n) return;
+  const codes = codesOf(n.column) || [];
+  const names = {};
+  const long = [];
+  const seen = new Map();
+  let twice = null;
+  for (const code of codes) {
+    const v = String(Object.prototype.hasOwnProperty.call(n.values, code) ? n.values[code] : '').replace(/\s+/g, ' ').trim();
+    if (!v) continue;
+    if ([...v].length > MAX_CODE_NAME) long.push(code);
+    const key = v.toLowerCase();
+    if (seen.has(key) && !twice) twice = [seen.get(key), code, v];
+    else seen.set(key, code);
+    names[code] = v;
+  }
+  let problem = '';
+  let focusCode = null;
+  if (long.length) {
+    problem = `A name can have at most ${MAX_CODE_NAME} characters; the name of ${long.length === 1 ? 'code' : 'codes'} ${long.join(', ')} is longer. Shorten it; nothing has changed yet.`;
+    [focusCode] = long;
+  } else if (twice) {
+    problem = `Each code needs a name of its own: codes ${twice[0]} and ${twice[1]} are both called "${twice[2]}". Change one of them; nothing has changed yet.`;
+    [, focusCode] = twice;
+  }
+  if (problem) {
+    n.problem = problem;
+    renderColumns();
+    const input = [...el.columnsTable.querySelectorAll('tr.codes-editor input')].find((x) => x.dataset.code === focusCode);
+    if (input) input.focus();
+    return;
+  }
+  const before = namesOf(n.column) || {};
+  const same = Object.keys(before).length === Object.keys(names).length && Object.entries(names).every(([k, v]) => before[k] === v);
+  if (same) {
+    state.naming = null;
+    renderColumns();
+    setColumnsStatus(Object.keys(names).length ? `The codes of ${n.column} already have these names.` : `The codes of ${n.column} have no names.`);
+    focusNamingButton(n.column);
+    return;
+  }
+  changeLevelNames(n.column, names);
+}
+
+/** Gives the codes of a column these names (none: no names), keeping the names before for Undo. */
+function changeLevelNames(column, names) {
+  state.undo.push({ levelNames: copyNames(state.levelNames), column });
+  if (state.undo.length > UNDO_DEPTH) state.undo.shift();
+  if (Object.keys(names).length) state.levelNames[column] = { ...names };
+  else delete state.levelNames[column];
+  state.naming = null;
+  el.undoButton.disabled = false;
+  setColumnsStatus(namesOf(column)
+    ? `${namesSentence(column)} Undo takes them back.`
+    : `The codes of ${column} have no names now. Undo takes that back.`);
+  renderColumns();
+  relabel();
+  focusNamingButton(column);
+}
+
+function undoNames(before) {
+  state.levelNames = before.levelNames;
+  state.naming = null;
+  setColumnsStatus(namesOf(before.column)
+    ? `Undone: ${namesSentence(before.column)}`
+    : `Undone: the codes of ${before.column} have no names again.`);
+  renderColumns();
+  relabel();
+}
+
+/**
+ * Shows again, with the names as they are now, what shows levels: the
+ * result, the comparison, the one-case form and the predictions. Names are
+ * labels only, so nothing becomes out of date.
+ */
+function relabel() {
+  const notes = [el.staleNote, el.chooseStale, el.predictStale];
+  const hidden = notes.map((x) => x.hidden);
+  if (state.report) renderResult(state.report);
+  if (state.selection) renderSelection(state.selection);
+  if (state.inputs) renderCaseForm(state.inputs);
+  if (state.prediction) renderPrediction(state.prediction);
+  notes.forEach((x, i) => { x.hidden = hidden[i]; });
 }
 
 // ------------------------------------------------------------ the model
@@ -863,7 +1261,7 @@ async function runFit() {
     clearResult();
     // The engine has said what happened (onTrouble) unless it is another error.
     if (!(e instanceof EngineError)) showMessage(el.modelMessage, `The fit could not be run: ${e.message}`);
-    else if (e.kind === 'stopped') showMessage(el.modelMessage, 'The fit was stopped together with the search. Press Fit to run it again.');
+    else if (e.kind === 'stopped') showMessage(el.modelMessage, `The fit was stopped ${stoppedWords()}. Press Fit to run it again.`);
     return;
   }
   if (seq !== state.fitSeq) return;
@@ -899,6 +1297,8 @@ function finishBusy(status) {
 function clearResult() {
   state.report = null;
   state.fitRequest = null;
+  state.equationSeq += 1;
+  el.equationBlock.hidden = true;
   el.result.hidden = true;
   el.staleNote.hidden = true;
   clearChecks();
@@ -1003,7 +1403,7 @@ function renderResult(r) {
   m.textContent = r.response;
   el.modelLine.append(
     'Model of ', m,
-    r.terms.length ? ` on ${r.terms.join(', ')}` : ' on no terms',
+    r.terms.length ? ` on ${r.terms.map(termText).join(', ')}` : ' on no terms',
     r.intercept ? ', with an intercept.' : ', without an intercept.',
     r.weights ? ` Weighted by ${r.weights}.` : '',
   );
@@ -1029,8 +1429,9 @@ function renderResult(r) {
   const body = tableHead(el.coefTable, ['Term', ...COEF_COLUMNS.map((c) => c[1]), lowLabel, highLabel]);
   for (const c of r.coefficients) {
     const tr = body.insertRow();
-    const th = addCell(tr, 'th', c.term, { scope: 'row' });
-    if (c.group && c.group !== c.term) th.title = `from ${c.group}`;
+    const th = addCell(tr, 'th', labelText(c.term), { scope: 'row' });
+    th.dataset.term = c.term;
+    if (c.group && c.group !== c.term) th.title = `from ${termText(c.group)}`;
     if (c.aliased) {
       const td = addCell(tr, 'td', 'not estimated: this column is a combination of earlier ones (aliased)', { className: 'aliased' });
       td.colSpan = 6;
@@ -1046,7 +1447,7 @@ function renderResult(r) {
     const hb = tableHead(el.hc3Table, ['Term', 'Standard error (HC3)', 't', 'p-value', lowLabel, highLabel]);
     for (const c of r.hc3) {
       const tr = hb.insertRow();
-      addCell(tr, 'th', c.term, { scope: 'row' });
+      addCell(tr, 'th', labelText(c.term), { scope: 'row' }).dataset.term = c.term;
       numberCell(tr, c.std_error, 5, 'Standard error (HC3)');
       numberCell(tr, c.t, 4, 't');
       numberCell(tr, c.p_value, 'p', 'p-value');
@@ -1066,6 +1467,33 @@ function renderResult(r) {
 
   renderFigures(r);
   el.copyStatus.textContent = '';
+  el.namesCopyHint.hidden = !r.coefficients.some((c) => labelText(c.term) !== c.term);
+  renderEquation(r);
+}
+
+/** The model in plain algebra, from the wasm (the report's equation), with the names of codes in its labels. */
+async function renderEquation(r) {
+  const seq = ++state.equationSeq;
+  const fit = {
+    response: r.response,
+    coefficients: r.coefficients.map((c) => ({ term: labelText(c.term), estimate: c.estimate, aliased: c.aliased })),
+  };
+  let answer = null;
+  try {
+    // Not counted among the exports the tests wait for: it is part of showing the result.
+    answer = await engine.exportCall('equation_text', [JSON.stringify(fit)]);
+  } catch (_) {
+    answer = null;
+  }
+  if (seq !== state.equationSeq || state.report !== r) return;
+  if (!answer || answer.error) {
+    el.equationBlock.hidden = true;
+    return;
+  }
+  el.equation.textContent = answer.ok;
+  const bracket = /\[[^\]]*\]/.exec(answer.ok);
+  el.equationHint.textContent = `Coefficients rounded to 4 significant digits${bracket ? `; ${bracket[0]} is 1 for a row where it holds and 0 for the others` : ''}.`;
+  el.equationBlock.hidden = false;
 }
 
 function addItem(list, text) {
@@ -1155,7 +1583,7 @@ function sameTerms(a, b) {
 
 /** A set of terms in words: the terms, or what is left without any. */
 function termsText(terms) {
-  if (terms.length) return terms.join(', ');
+  if (terms.length) return terms.map(termText).join(', ');
   return el.intercept.checked ? 'no terms: the intercept alone' : 'no terms';
 }
 
@@ -1233,7 +1661,7 @@ async function runSearch() {
     el.searchProgress.hidden = true;
     if (e instanceof EngineError && e.kind === 'stopped') {
       const refocus = document.activeElement === el.stopButton;
-      setSearching(false, 'Stopped.');
+      setSearching(false, state.stoppedBy === 'load' ? 'Stopped when a load was cancelled.' : 'Stopped.');
       // The Stop button goes away: keep the focus in the step.
       if (refocus) el.searchButton.focus();
       return;
@@ -1259,6 +1687,7 @@ async function runSearch() {
 
 function stopSearch() {
   if (el.stopButton.hidden) return;
+  state.stoppedBy = 'search';
   engine.stop('Stopped.');
 }
 
@@ -1292,7 +1721,7 @@ function useButton(terms, label) {
 
 function stepText(step, valueWord) {
   const verb = step.action === 'add' ? 'Added' : 'Dropped';
-  return `${verb} ${step.term} (${valueWord} = ${valueWord === 'p' ? pValueText(step.value) : shortNumber(step.value, 6)}); then: ${termsText(step.terms)}.`;
+  return `${verb} ${termText(step.term)} (${valueWord} = ${valueWord === 'p' ? pValueText(step.value) : shortNumber(step.value, 6)}); then: ${termsText(step.terms)}.`;
 }
 
 function addStep(list, text, title) {
@@ -1377,7 +1806,7 @@ function renderSelection(r) {
       const li = document.createElement('li');
       const name = document.createElement('span');
       name.className = 'bar-term';
-      name.textContent = t.term;
+      name.textContent = termText(t.term);
       const track = document.createElement('span');
       track.className = 'bar-track';
       track.setAttribute('aria-hidden', 'true');
@@ -1393,6 +1822,10 @@ function renderSelection(r) {
       el.stabilityBars.append(li);
     }
   }
+
+  const named = Object.keys(state.levelNames).filter((c) => namesOf(c) && r.candidates.some((t) => t.includes(quoteName(c))));
+  el.comparisonNames.textContent = named.length ? `Names of codes (labels only; the sets use the codes): ${named.map((c) => `${c} ${namesList(c)}`).join('; ')}.` : '';
+  el.comparisonNames.hidden = named.length === 0;
 
   el.chooseNotes.textContent = '';
   for (const n of r.notes) addItem(el.chooseNotes, n);
@@ -1551,7 +1984,7 @@ async function runCheck() {
     state.checksDone += 1;
     finishCheck('');
     showMessage(el.checksMessage, e instanceof EngineError && e.kind === 'stopped'
-      ? 'The checks were stopped together with the search. Press Check this model to run them again.'
+      ? `The checks were stopped ${stoppedWords()}. Press Check this model to run them again.`
       : `The checks could not be run: ${e.message}`);
     return;
   }
@@ -2015,8 +2448,8 @@ function renderCaseForm(info) {
     if (input.kind === 'category') {
       control = document.createElement('select');
       control.add(new Option('Choose a category', ''));
-      for (const level of input.levels) control.add(new Option(level, level));
-      hint.textContent = `one of the ${input.levels.length} categories of the data${input.reference !== null ? `; the model compares them with ${input.reference}` : ''}`;
+      for (const level of input.levels) control.add(new Option(levelText(input.column, level), level));
+      hint.textContent = `one of the ${input.levels.length} categories of the data${input.reference !== null ? `; the model compares them with ${levelText(input.column, input.reference)}` : ''}`;
     } else {
       control = document.createElement('input');
       if (input.kind === 'date') {
@@ -2069,21 +2502,22 @@ function caseCells() {
     const names = empty.map((f) => f.dataset.column);
     return { problem: `Give a value for ${names.length === 1 ? names[0] : `each of ${names.join(', ')}`} first: the model needs every column it reads.`, focus: empty[0] };
   }
-  if (!fields.length) return { text: 'case\n1\n' };
+  if (!fields.length) return { text: 'case\n1\n', values: [] };
   const header = fields.map((f) => tsvCell(f.dataset.column)).join('\t');
   const row = fields.map((f) => tsvCell(f.value.trim())).join('\t');
-  return { text: `${header}\n${row}\n` };
+  const values = fields.map((f) => ({ column: f.dataset.column, value: f.value.trim(), level: f.tagName === 'SELECT' }));
+  return { text: `${header}\n${row}\n`, values };
 }
 
 async function predictCase() {
   if (!state.data || !state.fitRequest) return;
-  const { text, problem, focus } = caseCells();
+  const { text, problem, focus, values } = caseCells();
   if (problem) {
     showMessage(el.predictMessage, problem);
     if (focus) focus.focus();
     return;
   }
-  await runPredict(new TextEncoder().encode(text), { paste: true, header_row: 1, decimal: 'point' }, { source: 'case', name: 'the case in the form', format: 'paste' });
+  await runPredict(new TextEncoder().encode(text), { paste: true, header_row: 1, decimal: 'point' }, { source: 'case', name: 'the case in the form', format: 'paste', values });
 }
 
 /**
@@ -2108,7 +2542,7 @@ async function runPredict(newBytes, read, what) {
     if (seq !== state.predictSeq) return;
     finishPredict(status, '');
     showMessage(el.predictMessage, e instanceof EngineError && e.kind === 'stopped'
-      ? 'The prediction was stopped together with the search. Press Predict again to run it.'
+      ? `The prediction was stopped ${stoppedWords()}. Press Predict again to run it.`
       : `The predictions could not be made: ${e.message}`);
     return;
   }
@@ -2162,7 +2596,9 @@ async function openCases(name, bytes, read) {
     answer = await inspectBytes(bytes, read, null);
   } catch (e) {
     el.casesStatus.textContent = '';
-    showMessage(el.predictMessage, `"${name}" could not be opened: ${e.message}`);
+    showMessage(el.predictMessage, e instanceof EngineError && e.kind === 'stopped'
+      ? `Reading "${name}" was stopped ${stoppedWords()}; open it again to predict its cases.`
+      : `"${name}" could not be opened: ${e.message}`);
     return;
   }
   if (answer.error) {
@@ -2222,7 +2658,10 @@ function renderPrediction(p) {
   const strong = document.createElement('strong');
   strong.textContent = p.source === 'case' ? 'The case in the form' : p.name;
   const done = r.predictions.filter((x) => x.problem === null).length;
-  el.predictFacts.append(strong, p.source === 'case' ? '' : `: ${done} of ${plural(r.predictions.length, 'row')} predicted`,
+  const given = p.source === 'case' && p.values && p.values.length
+    ? `: ${p.values.map((v) => `${v.column} = ${v.level ? levelText(v.column, v.value) : v.value}`).join(', ')}`
+    : '';
+  el.predictFacts.append(strong, p.source === 'case' ? given : `: ${done} of ${plural(r.predictions.length, 'row')} predicted`,
     `. Intervals at ${lvl}: "Mean" is the range for the average of cases like it, "One case" the range for a single case.`);
   if (r.back_transform) {
     el.predictFacts.append(` The model explains ${r.response}; the values on the scale of ${original} are back-transformed by ${r.back_transform}`,
@@ -2260,7 +2699,7 @@ function renderPrediction(p) {
     addCell(tr, 'th', p.source === 'case' ? 'This case' : String(x.row), { scope: 'row', className: 'rownum' });
     if (x.problem !== null) {
       tr.className = 'problem';
-      const td = addCell(tr, 'td', x.problem, { className: 'row-problem' });
+      const td = addCell(tr, 'td', problemText(x.problem), { className: 'row-problem' });
       td.colSpan = PREDICTION_COLUMNS.length * scales.length + 2;
       continue;
     }
@@ -2303,6 +2742,13 @@ function renderPrediction(p) {
   el.copyPredictionsStatus.textContent = '';
 }
 
+/** A row's reason for no prediction, with the names of the codes it lists beside them. */
+function problemText(text) {
+  const m = /^(Row \d+ has "(.*)" in "(.*)", a value the model never saw \(it knows )(.*)(\); it cannot be predicted\.)$/.exec(text);
+  if (!m || !namesOf(m[3])) return text;
+  return `${m[1]}${m[4].split(', ').map((k) => levelText(m[3], k)).join(', ')}${m[5]}`;
+}
+
 /** The one case's prediction in a sentence, on the scale the user knows. */
 function renderCaseSummary(p, original) {
   const box = $('case-summary');
@@ -2311,7 +2757,7 @@ function renderCaseSummary(p, original) {
   if (box.hidden) return;
   const x = p.report.predictions[0];
   if (!x || x.problem !== null) {
-    box.textContent = x ? x.problem : 'The case could not be predicted.';
+    box.textContent = x ? problemText(x.problem) : 'The case could not be predicted.';
     return;
   }
   const v = original && x.original ? x.original : x;
@@ -2477,6 +2923,7 @@ async function choicesInWords() {
   for (const [column, kind] of Object.entries(d.kinds)) {
     out.push(`"${column}" was set by you to ${KIND_WORDS[kind] || kind} (the data suggested ${KIND_WORDS[d.detected[column]] || d.detected[column]}).`);
   }
+  for (const column of namedColumns()) out.push(namesSentence(column));
   for (const c of await exportCall('model_choices', [JSON.stringify(state.fitRequest)])) out.push(c);
   if (state.fitRequest.hc3) out.push('HC3 robust standard errors were asked for as well.');
   if (!el.staleNote.hidden) out.push('The choices on the page changed after this fit; the files hold the fit shown.');
@@ -2536,6 +2983,16 @@ async function downloadFile(kind) {
   }
 }
 
+/** The columns of the data whose codes have names, in the data's order. */
+function namedColumns() {
+  return state.data ? state.data.inspection.preview.header.filter((c) => namesOf(c)) : [];
+}
+
+/** The columns the user has left out of the model by calling them identifiers. */
+function excludedColumns() {
+  return state.data ? Object.entries(state.data.kinds).filter(([, k]) => k === 'identifier').map(([c]) => c) : [];
+}
+
 /** The choices on the page, as a session file records them. */
 function sessionRequest() {
   const d = state.data;
@@ -2555,8 +3012,8 @@ function sessionRequest() {
     ...readRequest(d),
     saved: localDate(),
     kinds: { ...d.kinds },
-    level_names: {},
-    excluded_columns: [],
+    level_names: Object.fromEntries(namedColumns().map((c) => [c, { ...namesOf(c) }])),
+    excluded_columns: excludedColumns(),
     model,
     selection: { candidates: el.candidates.value, force: el.force.value, by: el.chooseBy.value, search: el.searchWay.value, folds: 5, seed: 1, stability },
     include_data: el.sessionData.checked,
@@ -2624,8 +3081,15 @@ function applyChoices(session) {
     el.stability.checked = s.stability !== null;
     if (s.stability !== null) el.resamples.value = String(s.stability);
   }
-  if (session.level_names && Object.keys(session.level_names).length) notes.push('The session names some category codes; this page shows the codes as they are in the data.');
-  if (session.excluded_columns && session.excluded_columns.length) notes.push(`The session leaves out the columns ${session.excluded_columns.join(', ')}; they are simply not in the terms here.`);
+  const names = state.data.inspection.preview.header;
+  state.levelNames = {};
+  state.naming = null;
+  const absent = [];
+  for (const [column, m] of Object.entries(session.level_names || {})) {
+    if (!names.includes(column)) absent.push(column);
+    else if (m && Object.keys(m).length) state.levelNames[column] = Object.fromEntries(Object.entries(m).map(([k, v]) => [k, String(v)]));
+  }
+  if (absent.length) notes.push(`The session names the codes of ${absent.map((c) => `"${c}"`).join(', ')}, which these data do not have; those names are not used.`);
   renderColumns();
   return notes;
 }
@@ -2682,11 +3146,19 @@ async function openSessionFile(file) {
   if ((read.sheet !== undefined && read.sheet !== d.inspection.load.sheet) || (read.header_row !== undefined && read.header_row !== d.inspection.load.header_row)) {
     if (!(await reinspect({ read: { ...now, ...read } }))) return;
   }
-  if (Object.keys(session.kinds).length || Object.keys(d.kinds).length) {
-    if (!(await reinspect({ kinds: { ...session.kinds } }))) return;
+  // The columns the session leaves out are identifiers here (the page's way to leave a column out).
+  const kinds = { ...session.kinds };
+  const header = state.data.inspection.preview.header;
+  for (const c of session.excluded_columns || []) {
+    if (header.includes(c) && kinds[c] === undefined && state.data.detected[c] !== 'identifier') kinds[c] = 'identifier';
+  }
+  const missingExcluded = (session.excluded_columns || []).filter((c) => !header.includes(c));
+  if (Object.keys(kinds).length || Object.keys(state.data.kinds).length) {
+    if (!(await reinspect({ kinds }))) return;
   }
   const notes = [`Opened the session "${file.name}"${session.saved ? `, saved ${session.saved}` : ''}${opened.data_base64 ? ', with the copy of the data it keeps' : ''}.`];
   for (const mm of mismatches) notes.push(mm.message);
+  if (missingExcluded.length) notes.push(`The session leaves out ${missingExcluded.map((c) => `"${c}"`).join(', ')}, which these data do not have.`);
   notes.push(...applyChoices(session));
   if (blocking) {
     clearResult();
@@ -2766,6 +3238,7 @@ el.fileInput.addEventListener('change', () => {
   loadFile(f).finally(() => { el.fileInput.value = ''; });
 });
 el.demoButton.addEventListener('click', () => { openDemo(); });
+el.loadCancel.addEventListener('click', cancelLoad);
 el.pasteButton.addEventListener('click', () => { loadPaste(); });
 el.sheetSelect.addEventListener('change', () => {
   if (!state.data) return;

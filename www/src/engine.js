@@ -1,9 +1,9 @@
 // The one module that talks to the wasm. It starts the worker from its
 // data: URL, hands it the wasm bytes, sends inspect, fit, check and select
-// requests and matches the answers (and a search's progress) to them. When
-// the worker dies or reports a panic, it rejects what was waiting, says so
-// through `onTrouble`, and starts a fresh worker; `stop()` does the same on
-// purpose, to end a long search. The data stay with the caller on the main
+// requests and matches the answers (and the progress of a search or of a
+// load) to them. When the worker dies or reports a panic, it rejects what
+// was waiting, says so through `onTrouble`, and starts a fresh worker;
+// `stop()` does the same on purpose, to end a long search or load. The data stay with the caller on the main
 // thread.
 //
 // The Painter is the one exception to "the worker computes": drawing on a
@@ -137,9 +137,10 @@ export class Engine {
   }
 
   /**
-   * Ends the worker on purpose (a search the user stopped): what waited is
-   * rejected with an EngineError of kind 'stopped', and a fresh worker is
-   * started at once. Not reported through `onTrouble`.
+   * Ends the worker on purpose (a search the user stopped, a load the user
+   * cancelled): what waited is rejected with an EngineError of kind
+   * 'stopped', and a fresh worker is started at once. Not reported through
+   * `onTrouble`.
    */
   stop(message = 'Stopped.') {
     if (this.broken) return;
@@ -189,14 +190,17 @@ export class Engine {
 
   /**
    * Reads the bytes as a table and profiles its columns. Resolves with the
-   * parsed `{ok: {load, columns, preview}}` or `{error, kind}` object from
-   * the wasm; rejects with an EngineError as `fit` does.
+   * parsed `{ok: {load, columns, preview, codes}}` or `{error, kind}` object
+   * from the wasm; rejects with an EngineError as `fit` does, and with kind
+   * 'stopped' after `stop()` (how a load is cancelled).
    * @param {Uint8Array} bytes  the file's bytes (copied to the worker)
    * @param {object|string} request  the inspect request, or its JSON text
+   * @param {(share: number) => void} [onProgress]  the part of the file
+   *   read, 0..1, now and then while it is read, and 1 at the end
    */
-  inspect(bytes, request = {}) {
+  inspect(bytes, request = {}, onProgress = null) {
     const text = typeof request === 'string' ? request : JSON.stringify(request);
-    return this.send({ type: 'inspect', bytes, request: text });
+    return this.send({ type: 'inspect', bytes, request: text }, onProgress || null);
   }
 
   /**
@@ -249,7 +253,7 @@ export class Engine {
   /**
    * Calls one of the wasm's exports by name in the worker (formula_bytes,
    * export_tsv, export_workbook, export_report, sha256_hex, session_save,
-   * session_open, model_choices). Resolves with the parsed `{ok}` or
+   * session_open, model_choices, equation_text). Resolves with the parsed `{ok}` or
    * `{error, kind}`; rejects as `fit` does.
    * @param {string} fn
    * @param {Array<string|Uint8Array>} args  its arguments in order

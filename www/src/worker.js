@@ -1,15 +1,16 @@
 // The worker: loads the wasm and answers inspect, fit, check and select
 // messages. It holds no statistics; every number comes from the wasm
-// (`inspect`, `fit_bytes`, `check_bytes`, `select_bytes`, `model_inputs`,
-// `predict_bytes`), and so does every export (the formula, tab-separated
-// text, the workbook, the report, SHA-256 and the session file).
+// (`inspect_progress`, `fit_bytes`, `check_bytes`, `select_bytes`,
+// `model_inputs`, `predict_bytes`), and so does every export (the formula,
+// tab-separated text, the workbook, the report, the equation, SHA-256 and
+// the session file).
 //
 // The build (www/tools/inline.mjs) puts the wasm-bindgen glue in front of
 // this file and removes the import line below, so that the whole worker is
 // one module that starts from a data: URL.
 import {
-  initSync, check_bytes, export_report, export_tsv, export_workbook, fit_bytes, formula_bytes, inspect, last_panic,
-  model_choices, model_inputs, panic_for_test, predict_bytes, select_bytes, session_open, session_save, sha256_hex,
+  initSync, check_bytes, equation_text, export_report, export_tsv, export_workbook, fit_bytes, formula_bytes, inspect_progress,
+  last_panic, model_choices, model_inputs, panic_for_test, predict_bytes, select_bytes, session_open, session_save, sha256_hex,
 } from './plumbline.js';
 
 // Messages in:
@@ -25,8 +26,10 @@ import {
 //                                                  -> {type: 'result', id, json}
 //                                                  | {type: 'panic', id, message}
 //     a select also sends {type: 'progress', id, share} on the way, share
-//     being the part (0..1) of the subsets covered. A search is stopped by
-//     ending the worker: the wasm call runs to its end once started.
+//     being the part (0..1) of the subsets covered, and so does an inspect,
+//     share being the part of the file read. A search or a load is stopped
+//     by ending the worker: the wasm call runs to its end once started, and
+//     no message reaches the worker while it runs.
 //   {type: 'die', id}  (test hook) throws outside any handler, so that the
 //                      page sees the worker's error event.
 //   {type: 'pretend-panic', id}  (test hook) answers as a panic would.
@@ -76,6 +79,7 @@ const EXPORTS = {
   session_save: (bytes, request) => session_save(bytes, request),
   session_open: (sessionText, bytes) => session_open(sessionText, bytes),
   model_choices: (request) => model_choices(request),
+  equation_text: (fitJson) => equation_text(fitJson),
 };
 
 function runExport(msg) {
@@ -93,7 +97,7 @@ function run(msg) {
     case 'predict': return predict_bytes(msg.bytes, msg.newBytes, msg.request);
     case 'export': return runExport(msg);
     case 'real-panic': return panic_for_test();
-    default: return inspect(msg.bytes, msg.request);
+    default: return inspect_progress(msg.bytes, msg.request, progressPoster(msg.id));
   }
 }
 
