@@ -44,69 +44,147 @@ pub struct SubsetOptions<'a> {
     pub progress: Option<&'a mut dyn FnMut(f64) -> bool>,
 }
 
-/// An R factor with the owner (candidate index, or none) of each column;
+/// No owner: the intercept's column, and y's.
+const NONE: u32 = u32::MAX;
+
+/// The R factors of the nodes on the current path of the tree, one per
+/// depth, allocated once: depth d holds the R (column-major, leading
+/// dimension `ld`, only the upper triangle and the first subdiagonal are
+/// meaningful) and the owner of each column (candidate index, or [`NONE`]);
 /// the last column is y.
-#[derive(Clone)]
-struct Node {
-    m: usize,
-    r: Vec<f64>, // column-major m × m
-    owner: Vec<Option<usize>>,
+struct Stack {
+    ld: usize,
+    r: Vec<f64>,
+    owner: Vec<u32>,
+    m: Vec<usize>,
+    /// `valid[d]`: how many leading columns of depth d's buffer still equal
+    /// its parent's (siblings are made in order of the deleted column, so
+    /// each copies only what the one before it changed).
+    valid: Vec<usize>,
 }
 
-impl Node {
-    fn rss(&self) -> f64 {
-        let v = self.r[(self.m - 1) * self.m + (self.m - 1)];
+impl Stack {
+    fn new(root: &[f64], root_m: usize, owner: &[u32], depths: usize) -> Stack {
+        let ld = root_m;
+        let mut st =
+            Stack { ld, r: vec![0.0; ld * ld * depths], owner: vec![NONE; ld * depths], m: vec![0; depths], valid: vec![0; depths + 1] };
+        st.r[..ld * ld].copy_from_slice(root);
+        st.owner[..ld].copy_from_slice(owner);
+        st.m[0] = root_m;
+        st
+    }
+
+    fn rss(&self, depth: usize) -> f64 {
+        let (ld, m) = (self.ld, self.m[depth]);
+        let v = self.r[depth * ld * ld + (m - 1) * ld + (m - 1)];
         v * v
     }
 
-    /// Deletes column q and restores the upper triangle with Givens rotations.
-    fn delete_column(&self, q: usize) -> Node {
-        let m = self.m;
-        let nm = m - 1;
-        // Shift the columns after q left, keeping all m rows for now.
-        let mut a = vec![0.0; m * nm];
-        for (cn, co) in (0..m).filter(|&c| c != q).enumerate() {
-            a[cn * m..cn * m + m].copy_from_slice(&self.r[co * m..co * m + m]);
+    /// Writes into depth + 1 the R of depth `depth` without term `t`'s
+    /// columns: each column is deleted (the last one first) and the
+    /// triangle restored with Givens rotations ([`givens_from`]). Only the
+    /// part of each column down to its diagonal is copied: nothing below it
+    /// is ever read.
+    fn drop_term(&mut self, depth: usize, t: usize) {
+        let ld = self.ld;
+        let pm = self.m[depth];
+        let t = t as u32;
+        let (lo, hi) = self.r.split_at_mut((depth + 1) * ld * ld);
+        let parent = &lo[depth * ld * ld..];
+        let child = &mut hi[..ld * ld];
+        let (olo, ohi) = self.owner.split_at_mut((depth + 1) * ld);
+        let pown = &olo[depth * ld..depth * ld + pm];
+        let cown = &mut ohi[..ld];
+        // The grandchildren's buffer no longer follows this child.
+        self.valid[depth + 2] = 0;
+        let Some(q) = pown.iter().rposition(|&o| o == t) else {
+            // Not in this node: the child is the parent.
+            child[..pm * ld].copy_from_slice(&parent[..pm * ld]);
+            cown[..pm].copy_from_slice(pown);
+            self.m[depth + 1] = pm;
+            self.valid[depth + 1] = 0;
+            return;
+        };
+        // The first deletion copies the parent's columns but q (each down to
+        // its diagonal, all that is read) into the child; the leading ones
+        // still there from the previous sibling are kept.
+        let mut m = pm - 1;
+        for cn in self.valid[depth + 1].min(q)..m {
+            let co = if cn < q { cn } else { cn + 1 };
+            child[cn * ld..cn * ld + co + 1].copy_from_slice(&parent[co * ld..co * ld + co + 1]);
+            cown[cn] = pown[co];
         }
-        for c in q..nm {
-            let x = a[c * m + c];
-            let y = a[c * m + c + 1];
-            if y == 0.0 {
-                continue;
+        givens_from(child, ld, q, m);
+        // The term's other columns (contiguous, just before q), in place.
+        let mut first = q;
+        while let Some(q) = cown[..m].iter().rposition(|&o| o == t) {
+            m -= 1;
+            for cn in q..m {
+                child.copy_within((cn + 1) * ld..(cn + 1) * ld + cn + 2, cn * ld);
+                cown[cn] = cown[cn + 1];
             }
-            let h = x.hypot(y);
-            let (cs, sn) = (x / h, y / h);
-            for j in c..nm {
-                let (u, v) = (a[j * m + c], a[j * m + c + 1]);
-                a[j * m + c] = cs * u + sn * v;
-                a[j * m + c + 1] = -sn * u + cs * v;
-            }
+            givens_from(child, ld, q, m);
+            first = q;
         }
-        let mut r = vec![0.0; nm * nm];
-        for j in 0..nm {
-            r[j * nm..j * nm + nm].copy_from_slice(&a[j * m..j * m + nm]);
-        }
-        let mut owner = self.owner.clone();
-        owner.remove(q);
-        Node { m: nm, r, owner }
+        self.m[depth + 1] = m;
+        self.valid[depth + 1] = first;
     }
+}
 
-    fn drop_term(&self, t: usize) -> Node {
-        let mut node = self.clone();
-        while let Some(q) = node.owner.iter().rposition(|o| *o == Some(t)) {
-            node = node.delete_column(q);
+/// After column q of an upper triangle was deleted and the later columns
+/// shifted left, restores the triangle of the first `m` columns (leading
+/// dimension `ld`) with Givens rotations on rows c, c + 1 (Golub and Van
+/// Loan 2013, §6.5.2), the rotation's length from [`hypot_ieee`].
+#[inline]
+fn givens_from(a: &mut [f64], ld: usize, q: usize, m: usize) {
+    for c in q..m {
+        let x = a[c * ld + c];
+        let y = a[c * ld + c + 1];
+        if y == 0.0 {
+            continue;
         }
-        node
+        let h = hypot_ieee(x, y);
+        let (cs, sn) = (x / h, y / h);
+        for j in c..m {
+            let (u, v) = (a[j * ld + c], a[j * ld + c + 1]);
+            a[j * ld + c] = cs * u + sn * v;
+            a[j * ld + c + 1] = -sn * u + cs * v;
+        }
     }
+}
+
+/// √(x² + y²) from IEEE operations only (correctly rounded ×, +, √), so
+/// the native and the wasm builds get the same bits; `f64::hypot` comes
+/// from the platform's libm (glibc natively, a different implementation in
+/// wasm) and made the search's RSS differ between the CLI and the page in
+/// the last digits. It was also a quarter of the search's time. Scaled by
+/// the larger magnitude when the squares would overflow or underflow.
+#[inline]
+fn hypot_ieee(x: f64, y: f64) -> f64 {
+    let h2 = x * x + y * y;
+    if h2.is_finite() && h2 >= f64::MIN_POSITIVE {
+        return h2.sqrt();
+    }
+    let s = x.abs().max(y.abs());
+    if s == 0.0 || !s.is_finite() {
+        return s;
+    }
+    let (a, b) = (x / s, y / s);
+    s * (a * a + b * b).sqrt()
 }
 
 struct Search<'p, 'o> {
     p: &'p Problem,
-    forced: Vec<usize>,
+    /// The free terms in search order; a node's undecided terms are
+    /// `order[start..]`.
+    order: Vec<usize>,
+    /// Whether each candidate is in the current node's model.
+    in_model: Vec<bool>,
     df: Vec<usize>,
     best_size: Vec<f64>,
     best_k: Vec<f64>,
     result: SubsetResult,
+    stack: Stack,
     nodes: u64,
     covered: f64,
     total: f64,
@@ -115,18 +193,19 @@ struct Search<'p, 'o> {
 }
 
 impl Search<'_, '_> {
-    fn k_of(&self, terms: &[usize]) -> usize {
-        usize::from(self.p.intercept) + terms.iter().map(|&t| self.df[t]).sum::<usize>()
+    fn respects_hierarchy(&self) -> bool {
+        let c = &self.p.candidates;
+        (0..c.len()).filter(|&t| self.in_model[t]).all(|t| c[t].requires.iter().all(|&r| self.in_model[r]))
     }
 
-    fn record(&mut self, terms: &[usize], rss: f64) {
-        if !self.p.respects_hierarchy(terms) {
+    /// Records the current model (`size` terms, `k` coefficients).
+    fn record(&mut self, size: usize, k: usize, rss: f64) {
+        // Most nodes improve nothing: compare first, check the hierarchy
+        // only for a model that would be recorded.
+        if !(rss < self.best_size[size] || rss < self.best_k[k]) || !self.respects_hierarchy() {
             return;
         }
-        let size = terms.len();
-        let k = self.k_of(terms);
-        let mut sorted = terms.to_vec();
-        sorted.sort_unstable();
+        let sorted: Vec<usize> = (0..self.in_model.len()).filter(|&t| self.in_model[t]).collect();
         if rss < self.best_size[size] {
             self.best_size[size] = rss;
             self.result.by_size[size] = Some((sorted.clone(), rss));
@@ -137,16 +216,17 @@ impl Search<'_, '_> {
         }
     }
 
-    /// Visits the node (fixed ∪ undecided) and its subtree.
-    fn visit(&mut self, node: &Node, fixed: &[usize], undecided: &[usize]) {
+    /// Visits the node at `depth` (its model: the forced terms, the fixed
+    /// ones, and the undecided `order[start..]`; `size` terms and `k`
+    /// coefficients in all) and its subtree.
+    fn visit(&mut self, depth: usize, start: usize, size: usize, k: usize) {
         if self.stopped {
             return;
         }
         self.nodes += 1;
         self.result.examined += 1;
-        let rss = node.rss();
-        let model: Vec<usize> = self.forced.iter().chain(fixed).chain(undecided).copied().collect();
-        self.record(&model, rss);
+        let rss = self.stack.rss(depth);
+        self.record(size, k, rss);
         self.covered += 1.0;
         if self.nodes.is_multiple_of(4096) {
             if self.nodes >= self.options.max_nodes {
@@ -160,24 +240,30 @@ impl Search<'_, '_> {
                 }
             }
         }
-        if undecided.is_empty() {
+        let undecided = self.order.len() - start;
+        if undecided == 0 {
             return;
         }
         // Sizes and coefficient counts still reachable below this node.
-        let base = self.forced.len() + fixed.len();
-        let size_range = base..=(base + undecided.len() - 1);
-        let k_lo = self.k_of(&self.forced.iter().chain(fixed).copied().collect::<Vec<_>>());
-        let k_hi = self.k_of(&model) - undecided.iter().map(|&t| self.df[t]).min().unwrap_or(0);
-        let hopeful = size_range.clone().any(|s| rss < self.best_size[s]) || (k_lo..=k_hi).any(|k| rss < self.best_k[k]);
+        let base = size - undecided;
+        let (mut df_sum, mut df_min) = (0, usize::MAX);
+        for &t in &self.order[start..] {
+            df_sum += self.df[t];
+            df_min = df_min.min(self.df[t]);
+        }
+        let (k_lo, k_hi) = (k - df_sum, k - df_min);
+        let hopeful =
+            (base..=base + undecided - 1).any(|s| rss < self.best_size[s]) || (k_lo..=k_hi).any(|kk| rss < self.best_k[kk]);
         if !hopeful {
-            self.covered += 2f64.powi(undecided.len() as i32) - 1.0;
+            self.covered += 2f64.powi(undecided as i32) - 1.0;
             return;
         }
-        for i in 0..undecided.len() {
-            let child = node.drop_term(undecided[i]);
-            let mut f = fixed.to_vec();
-            f.extend_from_slice(&undecided[..i]);
-            self.visit(&child, &f, &undecided[i + 1..]);
+        for i in start..self.order.len() {
+            let t = self.order[i];
+            self.stack.drop_term(depth, t);
+            self.in_model[t] = false;
+            self.visit(depth + 1, i + 1, size - 1, k - self.df[t]);
+            self.in_model[t] = true;
             if self.stopped {
                 return;
             }
@@ -217,25 +303,33 @@ pub fn best_subsets(p: &Problem, order: &[usize], options: SubsetOptions) -> Sub
     let qr = factor_qr_pivoted(a, n, m, QrParams { rank_tol: -1.0 });
     let rm = qr.r_matrix();
     let r: Vec<f64> = rm.iter().map(|v| v.to_f64()).collect();
-    let root = Node { m: qr.rank, r, owner: owner[..qr.rank].to_vec() };
+    let root_owner: Vec<u32> = owner[..qr.rank].iter().map(|o| o.map_or(NONE, |t| t as u32)).collect();
     let df: Vec<usize> = p.candidates.iter().map(|c| c.columns.len()).collect();
     let total_terms = p.candidates.len();
     let kmax = usize::from(p.intercept) + df.iter().sum::<usize>();
+    let mut in_model = vec![false; total_terms];
+    for &t in forced.iter().chain(order) {
+        in_model[t] = true;
+    }
+    let size = forced.len() + order.len();
+    let k = usize::from(p.intercept) + forced.iter().chain(order).map(|&t| df[t]).sum::<usize>();
     let mut s = Search {
         p,
-        forced,
+        order: order.to_vec(),
+        in_model,
         df,
         best_size: vec![f64::INFINITY; total_terms + 1],
         best_k: vec![f64::INFINITY; kmax + 1],
         result: SubsetResult { by_size: vec![None; total_terms + 1], by_k: vec![None; kmax + 1], examined: 0, complete: true },
+        stack: Stack::new(&r, qr.rank, &root_owner, order.len() + 1),
         nodes: 0,
         covered: 0.0,
         total: 2f64.powi(order.len() as i32),
         options,
         stopped: false,
     };
-    if root.m == m {
-        s.visit(&root, &[], order);
+    if qr.rank == m {
+        s.visit(0, 0, size, k);
     } else {
         // More columns than rows: no exhaustive search.
         s.stopped = true;
