@@ -10,12 +10,20 @@ use std::io::Cursor;
 
 /// The sheets of a workbook, in order.
 pub fn list_sheets(bytes: &[u8]) -> Result<Vec<String>, ReadError> {
-    guarded(|| Ok(open(bytes, super::Limits::default().max_cells)?.sheet_names()))
+    let limits = super::Limits::default();
+    super::zip_guard(bytes, limits)?;
+    guarded(|| Ok(open(bytes, limits.max_cells)?.sheet_names()))
 }
 
 fn open(bytes: &[u8], max_cells: usize) -> Result<calamine::Sheets<Cursor<&[u8]>>, ReadError> {
     if bytes.starts_with(&[0xD0, 0xCF, 0x11, 0xE0]) {
         super::cfb_guard::check(bytes, max_cells).map_err(|detail| ReadError::Workbook { detail })?;
+        // An OLE file is read as .xls and nothing else: handed to the zip
+        // readers after an error, a zip archive hidden inside it would be
+        // unpacked without the size check of `zip_guard`.
+        return calamine::Xls::new(Cursor::new(bytes))
+            .map(calamine::Sheets::Xls)
+            .map_err(|e| ReadError::Workbook { detail: e.to_string() });
     }
     open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| ReadError::Workbook { detail: e.to_string() })
 }
@@ -42,6 +50,11 @@ fn guarded<T>(f: impl FnOnce() -> Result<T, ReadError>) -> Result<T, ReadError> 
 
 /// Days since 1970-01-01 of a spreadsheet date-time cell.
 fn date_days(d: &calamine::ExcelDateTime) -> Option<f64> {
+    // The library's conversion panics on a serial number of more than about
+    // 10^8 days; no calendar date is that far out (9999-12-31 is 2,958,465).
+    if d.as_f64().is_nan() || d.as_f64().abs() >= 1e7 {
+        return None;
+    }
     let dt = d.as_datetime()?;
     Some(dt.and_utc().timestamp_millis() as f64 / 86_400_000.0)
 }
