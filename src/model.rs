@@ -206,16 +206,16 @@ pub(crate) fn check_response(design: &Design, intercept: bool) -> Result<(), Fit
 }
 
 /// The rows of X and y multiplied by √w (in double-double) for weighted
-/// least squares.
+/// least squares (called only with weights; without them the design's
+/// columns are lent to the kernel).
 fn weighted_system(design: &Design) -> (Vec<DdColumn>, DdColumn) {
-    let x: Vec<DdColumn> = design.columns.iter().map(|c| c.values.clone()).collect();
     let Some(w) = &design.weights else {
-        return (x, design.response.clone());
+        return (design.columns.iter().map(|c| c.values.clone()).collect(), design.response.clone());
     };
     let root: Vec<DD> = w.iter().map(|&v| DD::from_f64(v).sqrt()).collect();
     let scale = |c: &DdColumn| -> DdColumn {
         let v: Vec<DD> = (0..c.len()).map(|i| c.get(i) * root[i]).collect();
         DdColumn::from_dd(&v)
     };
-    (x.iter().map(scale).collect(), scale(&design.response))
+    (design.columns.iter().map(|c| scale(&c.values)).collect(), scale(&design.response))
 }
