@@ -187,11 +187,11 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         let omega: Vec<f64> = (0..n)
             .map(|i| {
                 let e = sol.scaled_residual(i);
-                let d = 1.0 - sol.leverage[i];
+                let d = 1.0 - sol.leverage()[i];
                 e * e / (d * d)
             })
             .collect();
-        if sol.leverage.iter().any(|&h| h > 1.0 - 1e-10) {
+        if sol.leverage().iter().any(|&h| h > 1.0 - 1e-10) {
             warnings.push("Some rows have leverage 1 (they alone fix a coefficient), so HC3 standard errors are not defined.".into());
         }
         let se_scaled = sol.sandwich_se(&omega);

@@ -42,6 +42,7 @@ pub mod special;
 pub mod table;
 pub mod terms;
 pub mod text;
+pub mod values;
 #[cfg(target_arch = "wasm32")]
 pub mod wasm;
 #[cfg(target_arch = "wasm32")]

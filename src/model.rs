@@ -128,17 +128,11 @@ pub fn fit(table: &Table, spec: &ModelSpec, options: &FitOptions) -> Result<Fitt
     if spec.terms.is_empty() && !spec.intercept {
         return Err(FitError::NothingToFit);
     }
-    let mut design = build_design(table, spec)?;
+    let design = build_design(table, spec)?;
     let n = design.rows.len();
-    // Without weights the kernel works on the design's own columns, lent
-    // for the solve and given back, not on a copy (one copy of the data less).
-    let lent = design.weights.is_none();
-    let (x, y) = if lent {
-        let x: Vec<DdColumn> = design.columns.iter_mut().map(|c| std::mem::replace(&mut c.values, DdColumn::from_f64(Vec::new()))).collect();
-        (x, design.response.clone())
-    } else {
-        weighted_system(&design)
-    };
+    // Without weights the kernel shares the design's columns (which share
+    // the table's where they are plain columns): no copy of the data.
+    let (x, y) = weighted_system(&design);
     // √w times a value near 1e300 can pass the largest f64.
     for (label, col) in std::iter::once((&design.response_label, &y)).chain(design.columns.iter().map(|c| &c.label).zip(&x)) {
         if let Some(i) = (0..col.len()).find(|&i| !col.get(i).is_finite()) {
@@ -150,12 +144,7 @@ pub fn fit(table: &Table, spec: &ModelSpec, options: &FitOptions) -> Result<Fitt
         }
     }
     let solution = solve_lstsq(&x, &y, &options.lstsq);
-    drop(y);
-    if lent {
-        for (c, v) in design.columns.iter_mut().zip(x) {
-            c.values = v;
-        }
-    }
+    drop((x, y));
     if n <= solution.rank {
         // With no more rows than columns the rank found is at most n, so
         // the coefficient count is that of the design.
@@ -206,9 +195,9 @@ pub(crate) fn check_response(design: &Design, intercept: bool) -> Result<(), Fit
 }
 
 /// The rows of X and y multiplied by √w (in double-double) for weighted
-/// least squares (called only with weights; without them the design's
-/// columns are lent to the kernel).
-fn weighted_system(design: &Design) -> (Vec<DdColumn>, DdColumn) {
+/// least squares; without weights, the design's own columns (shared, not
+/// copied).
+pub fn weighted_system(design: &Design) -> (Vec<DdColumn>, DdColumn) {
     let Some(w) = &design.weights else {
         return (design.columns.iter().map(|c| c.values.clone()).collect(), design.response.clone());
     };

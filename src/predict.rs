@@ -131,7 +131,7 @@ fn numeric_columns(t: &Term, out: &mut Vec<String>) {
 
 fn values(table: &Table, name: &str) -> Option<Vec<f64>> {
     match &table.column(name)?.data {
-        ColumnData::Numeric(v) | ColumnData::Date(v) => Some(v.clone()),
+        ColumnData::Numeric(v) | ColumnData::Date(v) => Some(v.to_vec()),
         ColumnData::Text(c) => Some(c.iter().map(|s| s.as_deref().and_then(crate::table::parse_number).unwrap_or(f64::NAN)).collect()),
     }
 }
@@ -192,7 +192,7 @@ pub fn predict(fitted: &Fitted, spec: &ModelSpec, training: &Table, new: &Table,
             Some((c.clone(), lo, hi))
         })
         .collect();
-    let max_lev = sol.leverage.iter().copied().fold(0.0, f64::max);
+    let max_lev = sol.leverage().iter().copied().fold(0.0, f64::max);
     let sigma = rep.residual_std_error;
     let q = t_quantile(level, rep.df_residual as f64);
     let back = inverse(&spec.response);

@@ -1,5 +1,7 @@
 //! The in-memory table every reader produces and every model reads.
 
+use crate::values::Values;
+
 /// A rectangular table of named columns, as read from a file or a paste.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Table {
@@ -37,9 +39,9 @@ impl Column {
 /// A column's cells. NaN and `None` mark missing cells.
 #[derive(Clone, Debug, PartialEq)]
 pub enum ColumnData {
-    Numeric(Vec<f64>),
+    Numeric(Values),
     /// Dates as days since 1970-01-01 (a fraction for the time of day).
-    Date(Vec<f64>),
+    Date(Values),
     /// Text cells.
     Text(Vec<Option<String>>),
 }
@@ -78,7 +80,7 @@ impl Table {
     pub fn from_numeric(columns: Vec<(String, Vec<f64>)>) -> Table {
         let n = columns.first().map_or(0, |c| c.1.len());
         Table {
-            columns: columns.into_iter().map(|(name, v)| Column::new(name, ColumnData::Numeric(v))).collect(),
+            columns: columns.into_iter().map(|(name, v)| Column::new(name, ColumnData::Numeric(v.into()))).collect(),
             source_rows: (2..n + 2).collect(),
             sheet: None,
             warnings: Vec::new(),

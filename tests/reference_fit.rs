@@ -97,7 +97,7 @@ fn library_matches_numpy_and_scipy() {
         let res = want["residuals"].as_array().unwrap();
         assert_eq!(lev.len(), sol.rows, "{name}: rows");
         for i in 0..sol.rows {
-            m.check(&format!("leverage[{i}]"), sol.leverage[i], json_f64(&lev[i]), 1e-9, 1e-15);
+            m.check(&format!("leverage[{i}]"), sol.leverage()[i], json_f64(&lev[i]), 1e-9, 1e-15);
             m.check(&format!("residual[{i}]"), sol.residuals[i].to_f64() / w[i].sqrt(), json_f64(&res[i]), 1e-9, 1e-13);
         }
         m.assert_none(name);

@@ -136,14 +136,14 @@ fn random_problem(seed: u64) -> (Table, String, String) {
         for i in 0..n {
             y[i] += b * x[i] + 0.1 * x[i] * x[i];
         }
-        cols.push(Column::new(format!("x{}", j + 1), ColumnData::Numeric(x)));
+        cols.push(Column::new(format!("x{}", j + 1), ColumnData::Numeric(x.into())));
     }
     let levels = ["p", "q", "r"];
     let g: Vec<Option<String>> = (0..n).map(|i| Some(levels[(i + seed as usize) % 3].to_string())).collect();
     for (i, v) in y.iter_mut().enumerate() {
         *v += rng.normal() + if i % 3 == 0 { 0.5 } else { 0.0 };
     }
-    cols.insert(0, Column::new("y", ColumnData::Numeric(y)));
+    cols.insert(0, Column::new("y", ColumnData::Numeric(y.into())));
     cols.push(Column::new("g", ColumnData::Text(g)));
     let table = Table { columns: cols, source_rows: (2..n + 2).collect(), sheet: None, warnings: Vec::new() };
     let mut cands: Vec<String> = (1..=q).map(|j| format!("x{j}")).collect();
@@ -316,7 +316,7 @@ fn the_search_reports_progress_and_stops_when_asked() {
     let n = table.n_rows();
     let mut rng = Rng::new(99);
     for j in 0..18 {
-        cols.push(Column::new(format!("z{j}"), ColumnData::Numeric((0..n).map(|_| rng.normal()).collect())));
+        cols.push(Column::new(format!("z{j}"), ColumnData::Numeric((0..n).map(|_| rng.normal()).collect::<Vec<f64>>().into())));
     }
     let t = Table { columns: cols, ..table };
     let cands: Vec<String> = (0..18).map(|j| format!("z{j}")).collect();

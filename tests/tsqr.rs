@@ -188,7 +188,7 @@ fn nist(name: &str) -> (Vec<DdColumn>, DdColumn, Vec<f64>) {
     assert_eq!(meta["design"], "columns");
     let table = read_csv(&std::fs::read(dir.join(format!("{name}.csv"))).unwrap()).unwrap();
     let col = |k: usize| match &table.columns[k].data {
-        ColumnData::Numeric(v) => v.clone(),
+        ColumnData::Numeric(v) => v.to_vec(),
         _ => panic!("{name}: column {k} is not numeric"),
     };
     let n = table.n_rows();

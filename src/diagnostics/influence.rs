@@ -62,7 +62,7 @@ pub fn row_diagnostics(f: &Fitted) -> Vec<RowDiagnostics> {
     let mut out = Vec::with_capacity(n);
     for i in 0..n {
         let e = sol.scaled_residual(i); // √w-weighted, times y_scale
-        let h = sol.leverage[i];
+        let h = sol.leverage()[i];
         let y = d.response.get(i).to_f64();
         let resid = sol.residuals[i].to_f64() / root_w[i];
         let fitted = y - resid;
@@ -105,7 +105,7 @@ pub fn press(f: &Fitted) -> f64 {
     let sol = &f.solution;
     let scaled: f64 = (0..sol.rows)
         .map(|i| {
-            let e = sol.scaled_residual(i) / (1.0 - sol.leverage[i]);
+            let e = sol.scaled_residual(i) / (1.0 - sol.leverage()[i]);
             e * e
         })
         .sum();

@@ -32,31 +32,38 @@
 pub mod dd;
 pub mod qr_pivot;
 pub mod real;
+pub mod rows;
 pub mod tsqr;
 
 use dd::DD;
 use qr_pivot::{factor_qr_pivoted, PivotedQr, QrParams};
 use real::Real;
+use tsqr::TsqrParams;
+use crate::values::Values;
 use serde::Serialize;
 
 /// A column held as `hi + lo` double-double parts; `lo` is absent when
 /// the column is exactly representable in `f64` (raw data).
 #[derive(Clone, Debug, PartialEq)]
 pub struct DdColumn {
-    pub hi: Vec<f64>,
-    pub lo: Option<Vec<f64>>,
+    pub hi: Values,
+    pub lo: Option<Values>,
 }
 
 impl DdColumn {
     pub fn from_f64(values: Vec<f64>) -> DdColumn {
-        DdColumn { hi: values, lo: None }
+        DdColumn { hi: values.into(), lo: None }
+    }
+
+    /// A column of exact `f64` values that shares `values`' storage.
+    pub fn shared(values: &Values) -> DdColumn {
+        DdColumn { hi: values.clone(), lo: None }
     }
 
     /// Builds a column from double-double values, dropping an all-zero low part.
     pub fn from_dd(values: &[DD]) -> DdColumn {
-        let hi: Vec<f64> = values.iter().map(|v| v.hi).collect();
-        let lo: Vec<f64> = values.iter().map(|v| v.lo).collect();
-        let lo = if lo.iter().all(|&l| l == 0.0) { None } else { Some(lo) };
+        let hi: Values = values.iter().map(|v| v.hi).collect();
+        let lo = if values.iter().all(|v| v.lo == 0.0) { None } else { Some(values.iter().map(|v| v.lo).collect()) };
         DdColumn { hi, lo }
     }
 
@@ -132,7 +139,7 @@ pub struct LstsqSolution {
     /// Input columns found linearly dependent on earlier ones.
     pub aliased: Vec<usize>,
     pub rank: usize,
-    /// y − Xβ, accumulated in double-double.
+    /// y − Xβ, accumulated to about twice double precision.
     pub residuals: Vec<DD>,
     /// Σ residual², in double-double (infinite or zero when it lies
     /// beyond the range of `f64`; see `rss_scaled`).
@@ -145,18 +152,21 @@ pub struct LstsqSolution {
     /// Infinite or zero entries for columns near 1e±300: the standard
     /// errors use [`LstsqSolution::se_factor`] and [`LstsqSolution::unit_xtx_inv`].
     pub xtx_inv: Vec<f64>,
-    /// Diagonal of the hat matrix X(XᵀX)⁻¹Xᵀ.
-    pub leverage: Vec<f64>,
     /// 1-norm condition number of the column-scaled design (from R).
     pub condition: f64,
     /// Digits the double-precision pass could promise (the bound above).
     pub double_digits: f64,
     pub path: SolverPath,
     pub rank_tol: f64,
-    /// Thin Q of the scaled accepted columns, `rows x rank` column-major.
-    q: Vec<f64>,
-    /// R⁻¹ of the scaled accepted columns, `rank x rank` column-major.
-    r_inv: Vec<f64>,
+    /// The columns solved (shared with the caller's, not copied): rows of
+    /// Q, the leverages and the sandwich are computed from them and R⁻¹
+    /// when asked for, so no `rows x rank` Q is kept.
+    system: Vec<DdColumn>,
+    /// R⁻¹ of the scaled accepted columns, `rank x rank` column-major, in
+    /// the arithmetic of the path (its `lo` parts are zero on the double path).
+    r_inv: Vec<DD>,
+    /// Diagonal of the hat matrix, computed on first use.
+    leverage: std::sync::OnceLock<Vec<f64>>,
     /// (XᵀX)⁻¹ of the scaled columns, `cols x cols` row-major, NaN in
     /// aliased rows and columns.
     unit_xtx_inv: Vec<f64>,
@@ -166,6 +176,9 @@ pub struct LstsqSolution {
 }
 
 /// Solves min ‖y − Xβ‖₂ for the columns `x` (all of length `y.len()`).
+///
+/// The columns are kept by the solution (cheaply: [`DdColumn`] shares its
+/// storage) for the per-row results computed on demand.
 pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> LstsqSolution {
     let n = y.len();
     let p = x.len();
@@ -177,13 +190,25 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
     };
     let params = QrParams { rank_tol: options.rank_tol };
 
-    let fast = factor_qr_pivoted(scaled_matrix::<f64>(x, &scales, n), n, p, params);
-    let mut qty: Vec<f64> = (0..n).map(|i| y.hi[i]).collect();
+    // The R factor of the scaled [X y] in double precision, a block of rows
+    // at a time; then the pivoted QR of its p × p part, which aliases the
+    // columns the same rule would alias in X (RᵀR = XᵀX).
+    let refs: Vec<&DdColumn> = x.iter().collect();
+    let r_xy = tsqr::factor_system::<f64>(&refs, y, &scales, 1.0, TsqrParams::default());
+    let mut rx = vec![0.0; p * p];
+    for j in 0..p {
+        for i in 0..=j {
+            rx[j * p + i] = r_xy.get(i, j);
+        }
+    }
+    let fast = factor_qr_pivoted(rx, p, p, params);
+    let mut qty: Vec<f64> = (0..p).map(|i| r_xy.get(i, p)).collect();
     fast.apply_qt(&mut qty);
     let r_inv_fast = fast.invert_upper();
     let condition_fast = condition_1(&fast, &r_inv_fast);
     let fitted_norm = qr_pivot::norm(&qty[..fast.rank]);
-    let resid_norm = qr_pivot::norm(&qty[fast.rank..]);
+    let beyond = r_xy.get(p, p);
+    let resid_norm = (beyond * beyond + qr_pivot::norm(&qty[fast.rank..]).powi(2)).sqrt();
     let tan_theta = if fitted_norm > 0.0 { resid_norm / fitted_norm } else { f64::INFINITY };
     let bound = <f64 as Real>::EPS * (condition_fast + condition_fast * condition_fast * tan_theta);
     let double_digits = if fast.rank == 0 { f64::INFINITY } else { -bound.log10() };
@@ -193,24 +218,170 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
     } else {
         SolverPath::DoubleDouble
     });
-    match path {
-        SolverPath::Double => finish(x, y, y_scale, fast, r_inv_fast, condition_fast, double_digits, path, options, scales),
+    let (solved, condition) = match path {
+        SolverPath::Double => (solve_double(x, y, fast, &qty, r_inv_fast, &scales), condition_fast),
         SolverPath::DoubleDouble => {
             let slow = factor_qr_pivoted(scaled_matrix::<DD>(x, &scales, n), n, p, params);
             let r_inv = slow.invert_upper();
             let condition = condition_1(&slow, &r_inv);
-            finish(x, y, y_scale, slow, r_inv, condition, double_digits, path, options, scales)
+            (solve_extended(x, y, slow, r_inv, &scales), condition)
+        }
+    };
+    assemble(x, y, y_scale, solved, condition, double_digits, path, options, scales)
+}
+
+/// What either path hands to [`assemble`]: β of the scaled response (in
+/// the columns' own units), its residuals, and the factorization's facts.
+struct Solved {
+    coef_dd: Vec<DD>,
+    residuals: Vec<DD>,
+    accepted: Vec<usize>,
+    aliased: Vec<usize>,
+    r_inv: Vec<DD>,
+}
+
+/// The double path: β from the R factor, then refinement by the corrected
+/// semi-normal equations (Björck 1987, "Stability analysis of the method
+/// of seminormal equations for linear least squares problems", Linear
+/// Algebra Appl. 88/89): with r = y − Xβ and g = Xᵀr accumulated to about
+/// twice double precision, RᵀRδ = g needs R only, not Q. The path is taken
+/// only where the bound promises the target digits (κ below about 10³ for
+/// the default), where the semi-normal equations converge at once.
+fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r_inv: Vec<f64>, scales: &[f64]) -> Solved {
+    let p = x.len();
+    let k = qr.rank;
+    let beta = qr.solve_upper(qty);
+    let mut coef_dd = vec![DD::ZERO; p];
+    for (pos, &j) in qr.accepted.iter().enumerate() {
+        coef_dd[j] = DD::from_f64(beta[pos]).scale(scales[j]);
+    }
+    let r_at = |i: usize, j: usize| qr.r(i, j);
+    for _ in 0..REFINEMENT_STEPS {
+        let (_, g) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, true);
+        // Rᵀz = g, then Rδ = z.
+        let mut z: Vec<f64> = g.iter().map(|v| v.to_f64()).collect();
+        for i in 0..k {
+            let mut s = z[i];
+            for l in 0..i {
+                s -= r_at(l, i) * z[l];
+            }
+            z[i] = s / r_at(i, i);
+        }
+        for i in (0..k).rev() {
+            let mut s = z[i];
+            for l in i + 1..k {
+                s -= r_at(i, l) * z[l];
+            }
+            z[i] = s / r_at(i, i);
+        }
+        for (pos, &j) in qr.accepted.iter().enumerate() {
+            coef_dd[j] = coef_dd[j] + DD::from_f64(z[pos]).scale(scales[j]);
+        }
+    }
+    let (residuals, _) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, false);
+    let (coef_dd, residuals) = prefer_rounded(x, y, &qr.accepted, coef_dd, residuals, scales);
+    Solved { coef_dd, residuals, r_inv: r_inv.into_iter().map(DD::from_f64).collect(), accepted: qr.accepted, aliased: qr.aliased }
+}
+
+/// The double-double path: the whole scaled matrix factored by Householder
+/// QR in double-double, refined twice with Qᵀr (Golub and Wilkinson 1966).
+fn solve_extended(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<DD>, r_inv: Vec<DD>, scales: &[f64]) -> Solved {
+    let n = y.len();
+    let p = x.len();
+    let mut qty: Vec<DD> = (0..n).map(|i| y.get(i)).collect();
+    qr.apply_qt(&mut qty);
+    let beta_scaled = qr.solve_upper(&qty);
+    let mut coef_dd = vec![DD::ZERO; p];
+    for (k, &j) in qr.accepted.iter().enumerate() {
+        coef_dd[j] = beta_scaled[k].scale(scales[j]);
+    }
+    let mut residuals = residuals_dd(x, y, &qr.accepted, &coef_dd);
+    for _ in 0..REFINEMENT_STEPS {
+        let mut qtr = residuals.clone();
+        qr.apply_qt(&mut qtr);
+        let delta = qr.solve_upper(&qtr);
+        for (k, &j) in qr.accepted.iter().enumerate() {
+            coef_dd[j] = coef_dd[j] + delta[k].scale(scales[j]);
+        }
+        residuals = residuals_dd(x, y, &qr.accepted, &coef_dd);
+    }
+    let rounded: Vec<DD> = coef_dd.iter().map(|c| DD::from_f64(c.to_f64())).collect();
+    let rounded_residuals = residuals_dd(x, y, &qr.accepted, &rounded);
+    if sum_sq(&rounded_residuals) <= sum_sq(&residuals) {
+        coef_dd = rounded;
+        residuals = rounded_residuals;
+    }
+    Solved { coef_dd, residuals, r_inv, accepted: qr.accepted, aliased: qr.aliased }
+}
+
+/// If the coefficients rounded to f64 fit at least as well (an exact fit
+/// with representable coefficients), keeps them: the residuals are then
+/// exactly zero instead of 1e-90-sized remnants.
+///
+/// Skipped (same result, one pass fewer) when the scaled RSS exceeds
+/// 1e-12: rounding moves the fit by ‖XΔ‖² ≈ (2⁻⁵³‖Xβ‖)², about 1e-33,
+/// which raises an RSS that large by far more than its double-double
+/// rounding (1e-44), so the rounded coefficients never fit as well.
+fn prefer_rounded(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef_dd: Vec<DD>, residuals: Vec<DD>, scales: &[f64]) -> (Vec<DD>, Vec<DD>) {
+    if sum_sq(&residuals).hi > 1e-12 {
+        return (coef_dd, residuals);
+    }
+    let rounded: Vec<DD> = coef_dd.iter().map(|c| DD::from_f64(c.to_f64())).collect();
+    let (rounded_residuals, _) = residual_pass(x, y, accepted, &rounded, scales, false);
+    if sum_sq(&rounded_residuals) <= sum_sq(&residuals) {
+        (rounded, rounded_residuals)
+    } else {
+        (coef_dd, residuals)
+    }
+}
+
+/// One pass over the rows: r = y − Xβ over the accepted columns and, with
+/// `gradient`, g = X̃ᵀr for the scaled accepted columns X̃, both to about
+/// twice double precision ([`rows`]). β is in the columns' own units.
+fn residual_pass(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD], scales: &[f64], gradient: bool) -> (Vec<DD>, Vec<DD>) {
+    let n = y.len();
+    // Coefficients of the scaled columns (exact: the scales are powers of two).
+    let terms: Vec<rows::Term> =
+        accepted.iter().map(|&j| rows::Term { col: &x[j], scale: scales[j], coef: coef[j].scale(1.0 / scales[j]) }).collect();
+    if terms.iter().any(|t| !(t.coef.hi.abs() < rows::SPLIT_LIMIT)) {
+        let r = residuals_dd(x, y, accepted, coef);
+        let g = if gradient {
+            terms.iter().map(|t| (0..n).fold(DD::ZERO, |s, i| s + t.col.get(i).scale(t.scale) * r[i])).collect()
+        } else {
+            Vec::new()
+        };
+        return (r, g);
+    }
+    let mut r = vec![DD::ZERO; n];
+    let mut g = vec![DD::ZERO; if gradient { terms.len() } else { 0 }];
+    residual_blocks(&terms, y, &mut r, &mut g);
+    (r, g)
+}
+
+rows::wide_vectors! {
+    /// The blocks of [`residual_pass`]: residuals into `r`, and Xᵀr into `g`
+    /// unless it is empty.
+    fn residual_blocks<>(terms: &[rows::Term], y: &DdColumn, r: &mut [DD], g: &mut [DD]) = residual_blocks_body;
+}
+
+#[inline(always)]
+fn residual_blocks_body(terms: &[rows::Term], y: &DdColumn, r: &mut [DD], g: &mut [DD]) {
+    let (mut s, mut c) = (Vec::with_capacity(rows::BLOCK), Vec::with_capacity(rows::BLOCK));
+    for (b, block) in r.chunks_mut(rows::BLOCK).enumerate() {
+        let start = b * rows::BLOCK;
+        rows::residual_block(terms, y, start, block, &mut s, &mut c);
+        for (gk, t) in g.iter_mut().zip(terms) {
+            *gk = *gk + rows::dot_block(t.col, t.scale, start, block);
         }
     }
 }
 
 #[allow(clippy::too_many_arguments)]
-fn finish<T: Real>(
+fn assemble(
     x: &[DdColumn],
     y: &DdColumn,
     y_scale: f64,
-    qr: PivotedQr<T>,
-    r_inv: Vec<T>,
+    solved: Solved,
     condition: f64,
     double_digits: f64,
     path: SolverPath,
@@ -219,128 +390,137 @@ fn finish<T: Real>(
 ) -> LstsqSolution {
     let n = y.len();
     let p = x.len();
-    let r = qr.rank;
-    let mut qty: Vec<T> = (0..n).map(|i| T::from_dd(y.get(i))).collect();
-    qr.apply_qt(&mut qty);
-    let beta_scaled = qr.solve_upper(&qty);
-
-    let mut coef_dd = vec![DD::ZERO; p];
-    for (k, &j) in qr.accepted.iter().enumerate() {
-        coef_dd[j] = beta_scaled[k].to_dd().scale(scales[j]);
-    }
-    let mut residuals = residuals_dd(x, y, &qr.accepted, &coef_dd);
-    // Iterative refinement (Golub and Wilkinson 1966): the correction solves
-    // R·δ = Qᵀr with the residual r accumulated in double-double. Each step
-    // costs O(n·p); it lifts the componentwise accuracy of small
-    // coefficients that the normwise bound does not protect.
-    for _ in 0..REFINEMENT_STEPS {
-        let mut qtr: Vec<T> = residuals.iter().map(|&e| T::from_dd(e)).collect();
-        qr.apply_qt(&mut qtr);
-        let delta = qr.solve_upper(&qtr);
-        for (k, &j) in qr.accepted.iter().enumerate() {
-            coef_dd[j] = coef_dd[j] + delta[k].to_dd().scale(scales[j]);
-        }
-        residuals = residuals_dd(x, y, &qr.accepted, &coef_dd);
-    }
-    // If the coefficients rounded to f64 fit at least as well (an exact fit
-    // with representable coefficients), keep them: the residuals are then
-    // exactly zero instead of 1e-90-sized remnants.
-    let rounded: Vec<DD> = coef_dd.iter().map(|c| DD::from_f64(c.to_f64())).collect();
-    let rounded_residuals = residuals_dd(x, y, &qr.accepted, &rounded);
-    if sum_sq(&rounded_residuals) <= sum_sq(&residuals) {
-        coef_dd = rounded;
-        residuals = rounded_residuals;
-    }
+    let Solved { coef_dd, residuals, accepted, aliased, r_inv } = solved;
+    let r = accepted.len();
     // Back to the response's own scale (exact: y_scale is a power of two).
     let unscale = 1.0 / y_scale;
     let coef_dd: Vec<DD> = coef_dd.iter().map(|c| c.scale(unscale)).collect();
-    let coef: Vec<f64> =
-        (0..p).map(|j| if qr.accepted.contains(&j) { coef_dd[j].to_f64() } else { f64::NAN }).collect();
+    let coef: Vec<f64> = (0..p).map(|j| if accepted.contains(&j) { coef_dd[j].to_f64() } else { f64::NAN }).collect();
     let rss_scaled = sum_sq(&residuals);
     let rss = unscale_sum(rss_scaled, unscale);
-    let residuals: Vec<DD> = residuals.iter().map(|r| r.scale(unscale)).collect();
+    let residuals: Vec<DD> = residuals.iter().map(|e| e.scale(unscale)).collect();
 
     // (XᵀX)⁻¹ = C R⁻¹ R⁻ᵀ C in the original column order.
     let mut xtx_inv = vec![f64::NAN; p * p];
     let mut unit_xtx_inv = vec![f64::NAN; p * p];
     for a in 0..r {
         for b in a..r {
-            let mut s = T::zero();
+            let mut s = DD::ZERO;
             for l in b..r {
                 s = s + r_inv[l * r + a] * r_inv[l * r + b];
             }
-            let (ja, jb) = (qr.accepted[a], qr.accepted[b]);
-            let u = s.to_dd();
-            unit_xtx_inv[ja * p + jb] = u.to_f64();
-            unit_xtx_inv[jb * p + ja] = u.to_f64();
+            let (ja, jb) = (accepted[a], accepted[b]);
+            unit_xtx_inv[ja * p + jb] = s.to_f64();
+            unit_xtx_inv[jb * p + ja] = s.to_f64();
             // One scale at a time, so that a huge and a tiny column do not
             // overflow a product the result does not need.
-            let v = u.scale(scales[ja]).scale(scales[jb]).to_f64();
+            let v = s.scale(scales[ja]).scale(scales[jb]).to_f64();
             xtx_inv[ja * p + jb] = v;
             xtx_inv[jb * p + ja] = v;
         }
     }
-
-    let q_t = qr.thin_q();
-    let q: Vec<f64> = q_t.iter().map(|v| v.to_f64()).collect();
-    let mut leverage = vec![0.0; n];
-    for k in 0..r {
-        for (i, h) in leverage.iter_mut().enumerate() {
-            let v = q[k * n + i];
-            *h += v * v;
-        }
-    }
+    debug_assert_eq!(residuals.len(), n);
     LstsqSolution {
         rows: n,
         cols: p,
         coef,
         coef_dd,
-        aliased: qr.aliased.clone(),
+        aliased,
         rank: r,
         residuals,
         rss,
         y_scale,
         rss_scaled,
         xtx_inv,
-        leverage,
         condition,
         double_digits,
         path,
         rank_tol: options.rank_tol,
-        q,
-        r_inv: r_inv.iter().map(|v| v.to_f64()).collect(),
+        system: x.to_vec(),
+        r_inv,
+        leverage: std::sync::OnceLock::new(),
         unit_xtx_inv,
-        accepted: qr.accepted,
+        accepted,
         scales,
     }
 }
 
 impl LstsqSolution {
+    /// Calls `f(start, h, q)` for each block of rows of Q (column-major
+    /// `h x rank`), in order. The blocks are computed in batches of
+    /// [`Q_BATCH`] (with wide vectors where the processor has them).
+    fn for_each_q_block(&self, mut f: impl FnMut(usize, usize, &[f64])) {
+        let r = self.rank;
+        let cols: Vec<(&DdColumn, f64)> = self.accepted.iter().map(|&j| (&self.system[j], self.scales[j])).collect();
+        let r_inv_f: Vec<f64> = self.r_inv.iter().map(|v| v.hi).collect();
+        let mut out = vec![0.0; rows::BLOCK * Q_BATCH * r];
+        let mut start = 0;
+        while start < self.rows {
+            let end = (start + rows::BLOCK * Q_BATCH).min(self.rows);
+            let heights = match self.path {
+                SolverPath::Double => q_blocks_f64(&cols, &r_inv_f, start, end, &mut out),
+                SolverPath::DoubleDouble => q_blocks_dd(&cols, &self.r_inv, start, end, &mut out),
+            };
+            let mut at = start;
+            let mut offset = 0;
+            for h in heights {
+                f(at, h, &out[offset..offset + h * r]);
+                at += h;
+                offset += h * r;
+            }
+            start = end;
+        }
+    }
+
+    /// Diagonal of the hat matrix X(XᵀX)⁻¹Xᵀ, the squared row norms of Q;
+    /// computed on first use (one pass over the rows, O(n·p²)).
+    pub fn leverage(&self) -> &[f64] {
+        self.leverage.get_or_init(|| {
+            let r = self.rank;
+            let mut lev = vec![0.0; self.rows];
+            self.for_each_q_block(|start, h, q| {
+                let out = &mut lev[start..start + h];
+                for k in 0..r {
+                    for (o, v) in out.iter_mut().zip(&q[k * h..(k + 1) * h]) {
+                        *o += v * v;
+                    }
+                }
+            });
+            lev
+        })
+    }
+
+    /// Qᵀ diag(ω) Q, `rank x rank` row-major.
+    fn weighted_gram(&self, omega: &[f64]) -> Vec<f64> {
+        let r = self.rank;
+        let mut m = vec![0.0; r * r];
+        self.for_each_q_block(|start, h, q| {
+            let w = &omega[start..start + h];
+            for a in 0..r {
+                let qa = &q[a * h..(a + 1) * h];
+                for b in a..r {
+                    let qb = &q[b * h..(b + 1) * h];
+                    let s: f64 = (0..h).map(|i| qa[i] * w[i] * qb[i]).sum();
+                    m[a * r + b] += s;
+                }
+            }
+        });
+        for a in 0..r {
+            for b in 0..a {
+                m[a * r + b] = m[b * r + a];
+            }
+        }
+        m
+    }
+
     /// The sandwich (XᵀX)⁻¹ Xᵀ diag(ω) X (XᵀX)⁻¹ for per-row weights ω,
     /// `cols x cols` row-major with NaN for aliased columns. With
     /// ω = r²/(1−h)² this is the HC3 covariance of MacKinnon and White
     /// (1985, Journal of Econometrics 29).
     pub fn sandwich(&self, omega: &[f64]) -> Vec<f64> {
-        let (n, p, r) = (self.rows, self.cols, self.rank);
-        // M = Qᵀ diag(ω) Q  (r x r)
-        let mut m = vec![0.0; r * r];
-        for a in 0..r {
-            for b in a..r {
-                let qa = &self.q[a * n..(a + 1) * n];
-                let qb = &self.q[b * n..(b + 1) * n];
-                let s: f64 = (0..n).map(|i| qa[i] * omega[i] * qb[i]).sum();
-                m[a * r + b] = s;
-                m[b * r + a] = s;
-            }
-        }
-        // R⁻¹ M R⁻ᵀ
-        let rinv = |i: usize, j: usize| self.r_inv[j * r + i];
-        let mut t = vec![0.0; r * r]; // R⁻¹ M
-        for i in 0..r {
-            for j in 0..r {
-                t[i * r + j] = (i..r).map(|l| rinv(i, l) * m[l * r + j]).sum();
-            }
-        }
+        let (p, r) = (self.cols, self.rank);
+        let t = self.rinv_m(omega);
+        let rinv = |i: usize, j: usize| self.r_inv[j * r + i].to_f64();
         let mut out = vec![f64::NAN; p * p];
         for i in 0..r {
             for j in 0..r {
@@ -352,25 +532,32 @@ impl LstsqSolution {
         out
     }
 
+    /// R⁻¹ (Qᵀ diag(ω) Q), `rank x rank` row-major.
+    fn rinv_m(&self, omega: &[f64]) -> Vec<f64> {
+        let r = self.rank;
+        let m = self.weighted_gram(omega);
+        let rinv = |i: usize, j: usize| self.r_inv[j * r + i].to_f64();
+        let mut t = vec![0.0; r * r];
+        for i in 0..r {
+            for j in 0..r {
+                t[i * r + j] = (i..r).map(|l| rinv(i, l) * m[l * r + j]).sum();
+            }
+        }
+        t
+    }
+
     /// √ of the sandwich's diagonal, one per column (NaN when aliased),
     /// computed on the scaled columns and scaled back one factor at a time,
     /// so that it stays finite for columns near 1e±300.
     pub fn sandwich_se(&self, omega: &[f64]) -> Vec<f64> {
-        let (n, p, r) = (self.rows, self.cols, self.rank);
-        let rinv = |i: usize, j: usize| self.r_inv[j * r + i];
+        let (p, r) = (self.cols, self.rank);
+        let t = self.rinv_m(omega);
+        let rinv = |i: usize, j: usize| self.r_inv[j * r + i].to_f64();
         let mut out = vec![f64::NAN; p];
         for i in 0..r {
-            // (R⁻¹ Qᵀ)ᵢ row, then Σ ω (row)²
-            let mut v = vec![0.0; n];
-            for l in i..r {
-                let c = rinv(i, l);
-                for (k, vk) in v.iter_mut().enumerate() {
-                    *vk += c * self.q[l * n + k];
-                }
-            }
-            let s: f64 = v.iter().zip(omega).map(|(a, w)| a * a * w).sum();
+            let s: f64 = (i..r).map(|l| t[i * r + l] * rinv(i, l)).sum();
             let j = self.accepted[i];
-            out[j] = s.sqrt() * self.scales[j];
+            out[j] = s.max(0.0).sqrt() * self.scales[j];
         }
         out
     }
@@ -404,16 +591,54 @@ impl LstsqSolution {
         self.residuals[i].scale(self.y_scale).to_f64()
     }
 
-    /// Thin Q of the scaled accepted columns (column-major `rows x rank`),
-    /// exposed for the algebra tests.
-    pub fn thin_q(&self) -> &[f64] {
-        &self.q
+    /// The thin Q of the scaled accepted columns, column-major
+    /// `rows x rank`, formed in full (n·rank numbers; the fit itself never
+    /// forms it).
+    pub fn thin_q(&self) -> Vec<f64> {
+        let (n, r) = (self.rows, self.rank);
+        let mut q = vec![0.0; n * r];
+        self.for_each_q_block(|start, h, block| {
+            for k in 0..r {
+                q[k * n + start..k * n + start + h].copy_from_slice(&block[k * h..(k + 1) * h]);
+            }
+        });
+        q
     }
 
     /// Input columns in the order they entered R.
     pub fn accepted(&self) -> &[usize] {
         &self.accepted
     }
+}
+
+/// Blocks of rows of Q computed per batch in [`LstsqSolution::for_each_q_block`].
+const Q_BATCH: usize = 16;
+
+rows::wide_vectors! {
+    /// Rows `start..end` of Q in double precision, block after block into
+    /// `out`; returns the blocks' heights.
+    fn q_blocks_f64<>(cols: &[(&DdColumn, f64)], r_inv: &[f64], start: usize, end: usize, out: &mut [f64]) -> Vec<usize> = q_blocks_body;
+}
+
+/// As [`q_blocks_f64`], in double-double (the extended path's R⁻¹).
+fn q_blocks_dd(cols: &[(&DdColumn, f64)], r_inv: &[DD], start: usize, end: usize, out: &mut [f64]) -> Vec<usize> {
+    q_blocks_body(cols, r_inv, start, end, out)
+}
+
+#[inline(always)]
+fn q_blocks_body<T: Real>(cols: &[(&DdColumn, f64)], r_inv: &[T], start: usize, end: usize, out: &mut [f64]) -> Vec<usize> {
+    let r = cols.len();
+    let mut xs = Vec::new();
+    let mut heights = Vec::new();
+    let (mut at, mut offset) = (start, 0);
+    while at < end {
+        let h = rows::BLOCK.min(end - at);
+        rows::q_block::<T>(cols, r_inv, at, h, &mut xs, &mut out[offset..offset + h * r]);
+        heights.push(h);
+        at += h;
+        offset += h * r;
+    }
+    heights
 }
 
 /// Refinement steps after the solve, in either path.
@@ -486,4 +711,74 @@ fn condition_1<T: Real>(qr: &PivotedQr<T>, r_inv: &[T]) -> f64 {
         norm_inv = norm_inv.max(t);
     }
     norm_r * norm_inv
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::select::cv::SplitMix64;
+
+    fn columns(n: usize, p: usize, seed: u64) -> (Vec<DdColumn>, DdColumn) {
+        let mut rng = SplitMix64::new(seed);
+        let mut u = || (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0;
+        let x: Vec<DdColumn> = (0..p).map(|_| DdColumn::from_f64((0..n).map(|_| u()).collect())).collect();
+        let y = DdColumn::from_f64((0..n).map(|_| u()).collect());
+        (x, y)
+    }
+
+    /// The wide-vector and plain builds of the row passes give the same
+    /// bits (the claim `rows::wide_vectors!` rests on). On a processor
+    /// without AVX2 both sides are the plain build and the test is void.
+    #[test]
+    fn wide_and_plain_row_passes_agree_bit_for_bit() {
+        let (n, p) = (1000, 7);
+        let (x, y) = columns(n, p, 3);
+        let mut rng = SplitMix64::new(9);
+        let terms: Vec<rows::Term> = x
+            .iter()
+            .map(|c| rows::Term { col: c, scale: 0.5, coef: DD::from_parts((rng.next_u64() % 1000) as f64 / 7.0, 1e-20) })
+            .collect();
+        let (mut r1, mut g1) = (vec![DD::ZERO; n], vec![DD::ZERO; p]);
+        let (mut r2, mut g2) = (vec![DD::ZERO; n], vec![DD::ZERO; p]);
+        residual_blocks(&terms, &y, &mut r1, &mut g1);
+        residual_blocks_body(&terms, &y, &mut r2, &mut g2);
+        assert_eq!(r1, r2);
+        assert_eq!(g1, g2);
+        assert!(g1.iter().all(|g| g.hi != 0.0));
+
+        let scales = vec![1.0; p];
+        let refs: Vec<&DdColumn> = x.iter().collect();
+        let wide = tsqr::factor_system::<f64>(&refs, &y, &scales, 1.0, TsqrParams::default());
+        let mut plain = tsqr::RFactor::<f64>::zero(p + 1);
+        let mut block: Vec<f64> = Vec::new();
+        for start in (0..n).step_by(256) {
+            let h = 256.min(n - start);
+            block.clear();
+            for c in refs.iter().map(|c| &c.hi).chain(std::iter::once(&y.hi)) {
+                block.extend_from_slice(&c[start..start + h]);
+            }
+            plain.absorb(&mut block, h);
+        }
+        assert_eq!(wide.r, plain.r);
+    }
+
+    /// The row passes' residuals match double-double arithmetic to its
+    /// precision, and the solution's leverages sum to the rank.
+    #[test]
+    fn row_pass_residuals_match_double_double_and_leverages_sum_to_rank() {
+        let (n, p) = (700, 5);
+        let (x, y) = columns(n, p, 11);
+        let sol = solve_lstsq(&x, &y, &LstsqOptions::default());
+        assert_eq!(sol.path, SolverPath::Double);
+        let scaled_y = DdColumn::from_f64(y.hi.iter().map(|v| v * sol.y_scale).collect());
+        let coef: Vec<DD> = sol.coef_dd.iter().map(|c| c.scale(sol.y_scale)).collect();
+        let accepted: Vec<usize> = (0..p).collect();
+        let (fast, _) = residual_pass(&x, &scaled_y, &accepted, &coef, sol.scales(), false);
+        let slow = residuals_dd(&x, &scaled_y, &accepted, &coef);
+        for (a, b) in fast.iter().zip(&slow) {
+            assert!((*a - *b).abs().to_f64() <= 1e-30 * b.abs().to_f64().max(1e-3), "{a:?} vs {b:?}");
+        }
+        let total: f64 = sol.leverage().iter().sum();
+        assert!((total - p as f64).abs() < 1e-12, "Σh = {total}");
+    }
 }

@@ -78,6 +78,7 @@ impl<T: Real> RFactor<T> {
 
     /// Absorbs a block of rows, column-major `height × cols` in `block`
     /// (overwritten: it holds the reflectors afterwards).
+    #[inline(always)]
     pub fn absorb(&mut self, block: &mut [T], height: usize) {
         assert_eq!(block.len(), height * self.cols, "block storage does not match its shape");
         reduce_stack(&mut self.r, self.cols, block, height, |_| height);
@@ -90,6 +91,7 @@ impl<T: Real> RFactor<T> {
 /// annihilated. Only rows `0..live(k)` of L's column k can be non-zero
 /// before step k (all of them for a dense block; `k + 1` for a triangle),
 /// and reflector k is built from R[k,k] and those rows.
+#[inline(always)]
 fn reduce_stack<T: Real>(r: &mut [T], p: usize, l: &mut [T], height: usize, live: impl Fn(usize) -> usize) {
     for k in 0..p {
         let h = live(k).min(height);
@@ -273,29 +275,46 @@ pub struct TsqrSolution {
 /// nothing of size n × p is allocated.
 pub fn solve_lstsq_tsqr<T: Real>(x: &[impl Borrow<DdColumn>], y: &DdColumn, options: &TsqrOptions) -> TsqrSolution {
     let n = y.len();
-    let p = x.len();
     let x: Vec<&DdColumn> = x.iter().map(|c| c.borrow()).collect();
     let scales: Vec<f64> = x.iter().map(|c| pow2_scale(&c.hi)).collect();
     let y_scale = pow2_scale(&y.hi);
-    // Blocks are filled column by column, so each column is read in order.
-    let b = options.tsqr.block_rows.max(1);
+    let r = factor_system::<T>(&x, y, &scales, y_scale, options.tsqr);
+    solve_from_r(&r, n, &scales, y_scale, options.rank_tol)
+}
+
+/// The R factor of [X·diag(scales)  y·y_scale] (`p + 1` columns, y last),
+/// block by block in arithmetic `T`. Only one block of rows is copied at a
+/// time, column by column, so each input column is read in order.
+pub fn factor_system<T: Real>(x: &[&DdColumn], y: &DdColumn, scales: &[f64], y_scale: f64, params: TsqrParams) -> RFactor<T> {
+    let (n, p) = (y.len(), x.len());
+    let b = params.block_rows.max(1);
     let mut r = RFactor::<T>::zero(p + 1);
     let mut block = vec![T::zero(); b * (p + 1)];
+    let fill = |dst: &mut [T], c: &DdColumn, start: usize, s: f64| match &c.lo {
+        None => dst.iter_mut().zip(&c.hi[start..]).for_each(|(d, &v)| *d = T::from_f64(v * s)),
+        Some(_) => dst.iter_mut().enumerate().for_each(|(k, d)| *d = T::from_dd(c.get(start + k).scale(s))),
+    };
     let mut start = 0;
     while start < n {
         let h = b.min(n - start);
         for (j, c) in x.iter().enumerate() {
-            for (k, v) in block[j * h..(j + 1) * h].iter_mut().enumerate() {
-                *v = T::from_dd(c.get(start + k).scale(scales[j]));
-            }
+            fill(&mut block[j * h..(j + 1) * h], c, start, scales[j]);
         }
-        for (k, v) in block[p * h..(p + 1) * h].iter_mut().enumerate() {
-            *v = T::from_dd(y.get(start + k).scale(y_scale));
-        }
-        r.absorb(&mut block[..h * (p + 1)], h);
+        fill(&mut block[p * h..(p + 1) * h], y, start, y_scale);
+        absorb_block(&mut r, &mut block[..h * (p + 1)], h);
         start += h;
     }
-    solve_from_r(&r, n, &scales, y_scale, options.rank_tol)
+    r
+}
+
+super::rows::wide_vectors! {
+    /// [`RFactor::absorb`], with wide vectors where the processor has them.
+    fn absorb_block<T: Real>(r: &mut RFactor<T>, block: &mut [T], height: usize) = absorb_body;
+}
+
+#[inline(always)]
+fn absorb_body<T: Real>(r: &mut RFactor<T>, block: &mut [T], height: usize) {
+    r.absorb(block, height)
 }
 
 /// β and the RSS from the R factor of the scaled [X y] (the last column is

@@ -465,7 +465,7 @@ mod tests {
     use super::*;
 
     fn kind_of(name: &str, v: Vec<f64>) -> ColumnProfile {
-        profile_column(&Column::new(name, ColumnData::Numeric(v)), None)
+        profile_column(&Column::new(name, ColumnData::Numeric(v.into())), None)
     }
 
     #[test]
@@ -489,7 +489,7 @@ mod tests {
     #[test]
     fn the_user_can_override_a_verdict() {
         let zone: Vec<f64> = (0..40).map(|i| (i % 5 + 1) as f64).collect();
-        let p = profile_column(&Column::new("zone", ColumnData::Numeric(zone)), Some(Kind::Numeric));
+        let p = profile_column(&Column::new("zone", ColumnData::Numeric(zone.into())), Some(Kind::Numeric));
         assert_eq!((p.kind, p.kind_set_by_user), (Kind::Numeric, true));
         assert_eq!(p.reason, "Set by you to numeric.");
     }

@@ -281,8 +281,8 @@ impl ColumnFill {
 
     pub fn finish(self, name: String) -> Column {
         let data = match self.kind {
-            ColumnType::Numeric => ColumnData::Numeric(self.values),
-            ColumnType::Date(_) => ColumnData::Date(self.values),
+            ColumnType::Numeric => ColumnData::Numeric(self.values.into()),
+            ColumnType::Date(_) => ColumnData::Date(self.values.into()),
             ColumnType::Text => ColumnData::Text(self.texts),
         };
         Column { name, data, invalid: self.invalid, invalid_count: self.invalid_count, errors: self.errors }

@@ -205,7 +205,7 @@ mod tests {
     #[test]
     fn plain_numbers() {
         let t = check("y,x\n1,2\n3,4.5\n", &["y", "x"], &[2, 3]);
-        assert_eq!(t.columns[1].data, ColumnData::Numeric(vec![2.0, 4.5]));
+        assert_eq!(t.columns[1].data, ColumnData::Numeric(vec![2.0, 4.5].into()));
     }
 
     #[test]
@@ -237,8 +237,8 @@ mod tests {
     fn semicolons_and_decimal_commas() {
         let l = load("name;km;cost\nA;3,5;1.234,5\nB;4,25;12,0\n");
         assert_eq!((l.delimiter, l.decimal), (Some(';'), Decimal::Comma));
-        assert_eq!(l.table.columns[1].data, ColumnData::Numeric(vec![3.5, 4.25]));
-        assert_eq!(l.table.columns[2].data, ColumnData::Numeric(vec![1234.5, 12.0]));
+        assert_eq!(l.table.columns[1].data, ColumnData::Numeric(vec![3.5, 4.25].into()));
+        assert_eq!(l.table.columns[2].data, ColumnData::Numeric(vec![1234.5, 12.0].into()));
     }
 
     #[test]
@@ -276,7 +276,7 @@ mod tests {
     #[test]
     fn pasted_blocks_are_tab_separated_with_decimal_commas() {
         let l = read_delimited(b"x\ty\r\n1,5\t2\r\n2,5\t3\r\n", &ReadOptions::default(), Format::Paste, &mut |_| true).unwrap();
-        assert_eq!(l.table.columns[0].data, ColumnData::Numeric(vec![1.5, 2.5]));
+        assert_eq!(l.table.columns[0].data, ColumnData::Numeric(vec![1.5, 2.5].into()));
     }
 
     #[test]

@@ -111,7 +111,7 @@ pub fn repeated_cv(p: &Problem, terms: &[usize], k: usize, seed: u64, repeats: u
 /// one fit (Allen 1974).
 pub fn press(p: &Problem, terms: &[usize]) -> (f64, f64) {
     let sol = p.solve(terms, None);
-    let press: f64 = (0..p.n).map(|i| (sol.residuals[i].to_f64() / (1.0 - sol.leverage[i])).powi(2)).sum();
+    let press: f64 = (0..p.n).map(|i| (sol.residuals[i].to_f64() / (1.0 - sol.leverage()[i])).powi(2)).sum();
     (press, (press / p.n as f64).sqrt())
 }
 

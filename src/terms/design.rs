@@ -11,6 +11,7 @@ use super::parse::Term;
 use crate::lstsq::dd::DD;
 use crate::lstsq::DdColumn;
 use crate::table::{parse_number, ColumnData, Table};
+use crate::values::Values;
 use serde::Serialize;
 use std::cell::RefCell;
 use std::fmt;
@@ -316,11 +317,17 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
         }
     }
     let response_label = spec.response.to_string();
-    let response = match ctx.eval(&spec.response)? {
-        Value::Number(v) => v,
-        Value::Columns(_) => return Err(DesignError::CategoricalResponse { term: response_label }),
+    let response = match ctx.plain_column(&spec.response) {
+        Some(c) => c,
+        None => match ctx.eval(&spec.response)? {
+            Value::Number(v) => {
+                check_finite(&ctx, &response_label, &v)?;
+                DdColumn::from_dd(&v)
+            }
+            Value::Columns(_) => return Err(DesignError::CategoricalResponse { term: response_label }),
+        },
     };
-    check_finite(&ctx, &response_label, &response)?;
+    check_finite_column(&ctx, &response_label, &response)?;
 
     let mut columns = Vec::new();
     if spec.intercept {
@@ -332,6 +339,11 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
     }
     for (ti, term) in spec.terms.iter().enumerate() {
         let label = term.to_string();
+        if let Some(values) = ctx.plain_column(term) {
+            check_finite_column(&ctx, &label, &values)?;
+            columns.push(DesignColumn { label, term: Some(ti), values });
+            continue;
+        }
         let cols = match ctx.eval(term)? {
             Value::Number(v) => vec![(label.clone(), v)],
             Value::Columns(cols) => {
@@ -351,13 +363,21 @@ pub fn build_design(table: &Table, spec: &ModelSpec) -> Result<Design, DesignErr
     Ok(Design {
         levels: ctx.recorded.into_inner(),
         response_label,
-        response: DdColumn::from_dd(&response),
+        response,
         columns,
         weights,
         rows,
         dropped,
         warnings,
     })
+}
+
+/// As [`check_finite`], for a column of exact `f64` values.
+fn check_finite_column(ctx: &EvalContext, label: &str, v: &DdColumn) -> Result<(), DesignError> {
+    match v.hi.iter().position(|x| !x.is_finite()) {
+        None => Ok(()),
+        Some(i) => Err(DesignError::Overflow { term: label.to_string(), first_row: ctx.source_row(i) }),
+    }
 }
 
 fn check_finite(ctx: &EvalContext, label: &str, v: &[DD]) -> Result<(), DesignError> {
@@ -391,7 +411,7 @@ fn check_numeric(table: &Table, name: &str) -> Result<(), DesignError> {
 
 /// A numeric column's values (NaN where missing); text cells are parsed,
 /// dates are days since 1970-01-01.
-fn numeric_values(table: &Table, name: &str) -> Vec<f64> {
+fn numeric_values(table: &Table, name: &str) -> Values {
     match &table.column(name).expect("checked by the caller").data {
         ColumnData::Numeric(v) | ColumnData::Date(v) => v.clone(),
         ColumnData::Text(cells) => {
@@ -471,6 +491,22 @@ pub fn term_columns(table: &Table, spec: &ModelSpec, levels: &[CategoryLevels], 
 impl EvalContext<'_> {
     fn source_row(&self, i: usize) -> usize {
         self.table.source_rows[self.rows[i]]
+    }
+
+    /// A term that is a numeric or date column as it stands: its values on
+    /// the rows used, sharing the table's storage when every row is used
+    /// (no copy of the data), else a copy of those rows. `None` for any
+    /// other term, which [`Self::eval`] computes.
+    fn plain_column(&self, term: &Term) -> Option<DdColumn> {
+        let Term::Column(c) = term else { return None };
+        match &self.table.column(c)?.data {
+            ColumnData::Numeric(v) | ColumnData::Date(v) => Some(if self.rows.len() == v.len() {
+                DdColumn::shared(v)
+            } else {
+                DdColumn::from_f64(self.rows.iter().map(|&i| v[i]).collect())
+            }),
+            ColumnData::Text(_) => None,
+        }
     }
 
     fn eval(&self, term: &Term) -> Result<Value, DesignError> {
@@ -678,7 +714,29 @@ mod tests {
         assert_eq!(labels, ["(intercept)", "x", "zone=2", "kind=a", "zone=2*x", "x^2"]);
         assert_eq!(d.rows, [0, 1, 3, 4]);
         assert_eq!(d.dropped, vec![DroppedRows { reason: "missing value in x".into(), column: "x".into(), count: 1, first_rows: vec![4] }]);
-        assert_eq!(d.columns[4].values.hi, [0.0, 3.0, 5.0, 0.0]);
+        assert_eq!(*d.columns[4].values.hi, [0.0, 3.0, 5.0, 0.0]);
+    }
+
+    /// Plain columns used on every row share the table's storage (no copy
+    /// of the data); with a row left out they are copies of the rows used,
+    /// with the same values as the evaluated path gives.
+    #[test]
+    fn plain_columns_share_the_table_storage_when_every_row_is_used() {
+        let table = read_csv(b"y,x,z\n1,2,5\n2,3,\n4,5,1\n3,7,2\n").unwrap();
+        let numeric = |name: &str| match &table.column(name).unwrap().data {
+            ColumnData::Numeric(v) => v.clone(),
+            _ => unreachable!(),
+        };
+        let d = build_design(&table, &spec("y", "x, log(x)")).unwrap();
+        assert!(d.response.hi.shares_storage_with(&numeric("y")));
+        assert!(d.columns[1].values.hi.shares_storage_with(&numeric("x")));
+        assert!(!d.columns[2].values.hi.shares_storage_with(&numeric("x")));
+        let d = build_design(&table, &spec("y", "x, z")).unwrap();
+        assert_eq!(d.rows, vec![0, 2, 3]);
+        assert!(!d.columns[1].values.hi.shares_storage_with(&numeric("x")));
+        assert_eq!(*d.columns[1].values.hi, [2.0, 5.0, 7.0]);
+        assert_eq!(*d.columns[2].values.hi, [5.0, 1.0, 2.0]);
+        assert_eq!(*d.response.hi, [1.0, 4.0, 3.0]);
     }
 
     #[test]
