@@ -276,6 +276,12 @@ async function afterFit(action) {
   await page.waitForFunction((n) => window.plumblineTest.fitsDone() > n, before, { timeout: 20000 });
 }
 
+/** Waits for the prediction form of the latest fit (an earlier fit's form may still be on the page, about to be replaced). */
+async function caseFormOfThisFit() {
+  await page.waitForFunction(() => window.plumblineTest.caseFormReady(), null, { timeout: 15000 });
+  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+}
+
 async function assertCoefRows(n) {
   assert.ok(await page.isVisible('#coef-table'), 'the result is shown');
   assert.equal(await page.locator('#coef-table tbody tr').count(), n, `${n} coefficient rows`);
@@ -1618,7 +1624,7 @@ function assertPredictionRow(got, want, what) {
 test('Predict: the one-case form and a file of new cases give the CLI\'s predictions, intervals, flags and reasons', { timeout: 90000 }, async () => {
   await openFresh();
   await afterFit(() => page.click('#demo-button'));
-  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  await caseFormOfThisFit();
   assert.ok(await page.isVisible('#predict'), 'the Predict step is shown after a fit');
   // One control per column the model reads, in the order of the terms: a
   // list of the model's own levels for a category, a number box otherwise.
@@ -1770,7 +1776,7 @@ test('Exports: copies of the comparison, the formula, the workbook, the report a
   await afterFit(() => page.click('#demo-button'));
   await checksDrawn(drawn);
   await afterSearch(() => page.click('#search-button'));
-  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  await caseFormOfThisFit();
   await afterPredict(() => page.setInputFiles('#cases-file', { name: 'new-cases.csv', mimeType: 'text/csv', buffer: Buffer.from(NEW_CASES_CSV) }));
   assert.ok(await page.isVisible('#keep'), 'the step is shown after a fit');
   const cli = cliFit(demoCsv, { response: DEMO_RESPONSE, terms: DEMO_TERMS });
@@ -2184,7 +2190,7 @@ test('a whole session, from the demo to predictions, asks for nothing, stores no
   await afterSearch(() => page.click('#search-button'));
   assert.ok((await page.locator('#comparison-table tbody tr').count()) >= 5);
   await afterFit(() => page.click('#recommend-use'));
-  await page.locator('#case-fields [data-column]').first().waitFor({ timeout: 15000 });
+  await caseFormOfThisFit();
   for (const f of await page.$$('#case-fields [data-column]')) {
     if (await f.evaluate((e) => e.tagName === 'SELECT')) await f.selectOption({ index: 1 });
     else await f.fill('3');

@@ -3380,6 +3380,10 @@ window.plumblineTest = {
   pretendPanic() {
     return engine.pretendPanicForTest().then(() => null, (e) => ({ name: e.name, kind: e.kind, message: e.message }));
   },
+  /** True once the prediction form of the latest fit is made (false while it is being made). */
+  caseFormReady() {
+    return state.inputs !== null;
+  },
   /** How many fits started from the page have been answered. */
   fitsDone() {
     return state.fitsDone;
