@@ -47,6 +47,7 @@ terms); select times a selection over K candidate terms, of which E
   --seed S          seed of the data (default 1)
   --write-csv PATH  also write the generated data as CSV (for other tools)
   --through-read    time reading that CSV from memory as well
+  --threads T       (fit) threads the fit may use (default: every core)
   --streaming       (fit) time the design and the bare streaming kernel
                     (lstsq::tsqr with its own two refinement passes, no
                     inference) instead of model::fit
@@ -79,6 +80,7 @@ struct RawArgs {
     file: Option<String>,
     through_read: bool,
     streaming: bool,
+    threads: Option<String>,
     json: bool,
 }
 
@@ -96,6 +98,7 @@ fn parse_args(what: &str, args: &[String]) -> Result<RawArgs, BenchError> {
             "--write-csv" => raw.write_csv = Some(value(a)?),
             "--through-read" => raw.through_read = true,
             "--streaming" => raw.streaming = true,
+            "--threads" => raw.threads = Some(value(a)?),
             "--json" => raw.json = true,
             s if s.starts_with("--") => return Err(usage(format!("There is no option \"{s}\" for bench {what}.\n\n{USAGE}"))),
             s => {
@@ -277,6 +280,10 @@ fn run_fit(raw: &RawArgs) -> Result<String, BenchError> {
         return Err(usage(format!("bench fit needs more rows than columns ({rows} rows, {cols} columns).")));
     }
     let seed = seed_of(raw)?;
+    let threads = match raw.threads.as_deref() {
+        None => 0,
+        Some(t) => count("--threads", Some(t), 1)?,
+    };
     let (table, spec) = fit_problem(rows, cols, seed);
     let input = prepare(table, raw)?;
     let start = Instant::now();
@@ -284,7 +291,9 @@ fn run_fit(raw: &RawArgs) -> Result<String, BenchError> {
     let (path, fitted) = if raw.streaming {
         (streaming_fit(&table, &spec)?, None)
     } else {
-        let fitted = fit(&table, &spec, &FitOptions::default()).map_err(|e| data(e.to_string()))?;
+        let mut options = FitOptions::default();
+        options.lstsq.threads = threads;
+        let fitted = fit(&table, &spec, &options).map_err(|e| data(e.to_string()))?;
         (format!("{:?}", fitted.solution.path), Some(fitted))
     };
     let seconds = start.elapsed().as_secs_f64();
@@ -303,6 +312,7 @@ fn run_fit(raw: &RawArgs) -> Result<String, BenchError> {
             serde_json::json!({
                 "rows": rows, "cols": cols, "seed": seed, "seconds": seconds, "flops": flops, "gflops": gflops,
                 "solver_path": path, "through_read": raw.through_read, "leverage_seconds": leverage_seconds,
+                "threads": if threads == 0 { plumbline::lstsq::rows::machine_threads() } else { threads },
             })
         ))
     } else {

@@ -119,11 +119,15 @@ pub struct LstsqOptions {
     pub target_digits: f64,
     /// Forces one path (for testing that both agree); `None` chooses.
     pub force_path: Option<SolverPath>,
+    /// Threads the passes over the rows may use; 0 leaves it to the
+    /// machine ([`rows::machine_threads`]). The result is the same bits
+    /// whatever the number.
+    pub threads: usize,
 }
 
 impl Default for LstsqOptions {
     fn default() -> Self {
-        LstsqOptions { rank_tol: 1e-12, target_digits: 13.0, force_path: None }
+        LstsqOptions { rank_tol: 1e-12, target_digits: 13.0, force_path: None, threads: 0 }
     }
 }
 
@@ -173,6 +177,8 @@ pub struct LstsqSolution {
     accepted: Vec<usize>,
     /// The power of two each input column was multiplied by.
     scales: Vec<f64>,
+    /// Threads the passes over the rows may use.
+    threads: usize,
 }
 
 /// Solves min ‖y − Xβ‖₂ for the columns `x` (all of length `y.len()`).
@@ -194,7 +200,8 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
     // at a time; then the pivoted QR of its p × p part, which aliases the
     // columns the same rule would alias in X (RᵀR = XᵀX).
     let refs: Vec<&DdColumn> = x.iter().collect();
-    let r_xy = tsqr::factor_system::<f64>(&refs, y, &scales, 1.0, TsqrParams::default());
+    let threads = if options.threads == 0 { rows::machine_threads() } else { options.threads };
+    let r_xy = tsqr::factor_system::<f64>(&refs, y, &scales, 1.0, TsqrParams::default(), threads);
     let mut rx = vec![0.0; p * p];
     for j in 0..p {
         for i in 0..=j {
@@ -219,7 +226,7 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
         SolverPath::DoubleDouble
     });
     let (solved, condition) = match path {
-        SolverPath::Double => (solve_double(x, y, fast, &qty, r_inv_fast, &scales), condition_fast),
+        SolverPath::Double => (solve_double(x, y, fast, &qty, r_inv_fast, &scales, threads), condition_fast),
         SolverPath::DoubleDouble => {
             let slow = factor_qr_pivoted(scaled_matrix::<DD>(x, &scales, n), n, p, params);
             let r_inv = slow.invert_upper();
@@ -227,7 +234,7 @@ pub fn solve_lstsq(x: &[DdColumn], y: &DdColumn, options: &LstsqOptions) -> Lsts
             (solve_extended(x, y, slow, r_inv, &scales), condition)
         }
     };
-    assemble(x, y, y_scale, solved, condition, double_digits, path, options, scales)
+    assemble(x, y, y_scale, solved, condition, double_digits, path, options, scales, threads)
 }
 
 /// What either path hands to [`assemble`]: β of the scaled response (in
@@ -247,7 +254,7 @@ struct Solved {
 /// twice double precision, RᵀRδ = g needs R only, not Q. The path is taken
 /// only where the bound promises the target digits (κ below about 10³ for
 /// the default), where the semi-normal equations converge at once.
-fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r_inv: Vec<f64>, scales: &[f64]) -> Solved {
+fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r_inv: Vec<f64>, scales: &[f64], threads: usize) -> Solved {
     let p = x.len();
     let k = qr.rank;
     let beta = qr.solve_upper(qty);
@@ -257,7 +264,7 @@ fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r
     }
     let r_at = |i: usize, j: usize| qr.r(i, j);
     for _ in 0..REFINEMENT_STEPS {
-        let (_, g) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, true);
+        let (_, g) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, true, threads);
         // Rᵀz = g, then Rδ = z.
         let mut z: Vec<f64> = g.iter().map(|v| v.to_f64()).collect();
         for i in 0..k {
@@ -278,8 +285,8 @@ fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r
             coef_dd[j] = coef_dd[j] + DD::from_f64(z[pos]).scale(scales[j]);
         }
     }
-    let (residuals, _) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, false);
-    let (coef_dd, residuals) = prefer_rounded(x, y, &qr.accepted, coef_dd, residuals, scales);
+    let (residuals, _) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, false, threads);
+    let (coef_dd, residuals) = prefer_rounded(x, y, &qr.accepted, coef_dd, residuals, scales, threads);
     Solved { coef_dd, residuals, r_inv: r_inv.into_iter().map(DD::from_f64).collect(), accepted: qr.accepted, aliased: qr.aliased }
 }
 
@@ -322,12 +329,12 @@ fn solve_extended(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<DD>, r_inv: Vec<DD
 /// 1e-12: rounding moves the fit by ‖XΔ‖² ≈ (2⁻⁵³‖Xβ‖)², about 1e-33,
 /// which raises an RSS that large by far more than its double-double
 /// rounding (1e-44), so the rounded coefficients never fit as well.
-fn prefer_rounded(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef_dd: Vec<DD>, residuals: Vec<DD>, scales: &[f64]) -> (Vec<DD>, Vec<DD>) {
+fn prefer_rounded(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef_dd: Vec<DD>, residuals: Vec<DD>, scales: &[f64], threads: usize) -> (Vec<DD>, Vec<DD>) {
     if sum_sq(&residuals).hi > 1e-12 {
         return (coef_dd, residuals);
     }
     let rounded: Vec<DD> = coef_dd.iter().map(|c| DD::from_f64(c.to_f64())).collect();
-    let (rounded_residuals, _) = residual_pass(x, y, accepted, &rounded, scales, false);
+    let (rounded_residuals, _) = residual_pass(x, y, accepted, &rounded, scales, false, threads);
     if sum_sq(&rounded_residuals) <= sum_sq(&residuals) {
         (rounded, rounded_residuals)
     } else {
@@ -338,7 +345,9 @@ fn prefer_rounded(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef_dd: Vec
 /// One pass over the rows: r = y − Xβ over the accepted columns and, with
 /// `gradient`, g = X̃ᵀr for the scaled accepted columns X̃, both to about
 /// twice double precision ([`rows`]). β is in the columns' own units.
-fn residual_pass(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD], scales: &[f64], gradient: bool) -> (Vec<DD>, Vec<DD>) {
+/// Chunks of [`rows::CHUNK_ROWS`] run on up to `threads` threads; their
+/// sums are added in chunk order.
+fn residual_pass(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD], scales: &[f64], gradient: bool, threads: usize) -> (Vec<DD>, Vec<DD>) {
     let n = y.len();
     // Coefficients of the scaled columns (exact: the scales are powers of two).
     let terms: Vec<rows::Term> =
@@ -352,23 +361,36 @@ fn residual_pass(x: &[DdColumn], y: &DdColumn, accepted: &[usize], coef: &[DD], 
         };
         return (r, g);
     }
-    let mut r = vec![DD::ZERO; n];
+    let chunk = rows::CHUNK_ROWS;
+    let parts = rows::map_chunks(n.div_ceil(chunk), threads, |c| {
+        let (from, to) = (c * chunk, ((c + 1) * chunk).min(n));
+        let mut r = vec![DD::ZERO; to - from];
+        let mut g = vec![DD::ZERO; if gradient { terms.len() } else { 0 }];
+        residual_blocks(&terms, y, from, &mut r, &mut g);
+        (r, g)
+    });
+    let mut r = Vec::with_capacity(n);
     let mut g = vec![DD::ZERO; if gradient { terms.len() } else { 0 }];
-    residual_blocks(&terms, y, &mut r, &mut g);
+    for (rc, gc) in parts {
+        r.extend_from_slice(&rc);
+        for (a, b) in g.iter_mut().zip(gc) {
+            *a = *a + b;
+        }
+    }
     (r, g)
 }
 
 rows::wide_vectors! {
-    /// The blocks of [`residual_pass`]: residuals into `r`, and Xᵀr into `g`
-    /// unless it is empty.
-    fn residual_blocks<>(terms: &[rows::Term], y: &DdColumn, r: &mut [DD], g: &mut [DD]) = residual_blocks_body;
+    /// The blocks of [`residual_pass`] from row `from`: residuals into `r`,
+    /// and Xᵀr added into `g` unless it is empty.
+    fn residual_blocks<>(terms: &[rows::Term], y: &DdColumn, from: usize, r: &mut [DD], g: &mut [DD]) = residual_blocks_body;
 }
 
 #[inline(always)]
-fn residual_blocks_body(terms: &[rows::Term], y: &DdColumn, r: &mut [DD], g: &mut [DD]) {
+fn residual_blocks_body(terms: &[rows::Term], y: &DdColumn, from: usize, r: &mut [DD], g: &mut [DD]) {
     let (mut s, mut c) = (Vec::with_capacity(rows::BLOCK), Vec::with_capacity(rows::BLOCK));
     for (b, block) in r.chunks_mut(rows::BLOCK).enumerate() {
-        let start = b * rows::BLOCK;
+        let start = from + b * rows::BLOCK;
         rows::residual_block(terms, y, start, block, &mut s, &mut c);
         for (gk, t) in g.iter_mut().zip(terms) {
             *gk = *gk + rows::dot_block(t.col, t.scale, start, block);
@@ -387,6 +409,7 @@ fn assemble(
     path: SolverPath,
     options: &LstsqOptions,
     scales: Vec<f64>,
+    threads: usize,
 ) -> LstsqSolution {
     let n = y.len();
     let p = x.len();
@@ -442,21 +465,22 @@ fn assemble(
         unit_xtx_inv,
         accepted,
         scales,
+        threads,
     }
 }
 
 impl LstsqSolution {
-    /// Calls `f(start, h, q)` for each block of rows of Q (column-major
-    /// `h x rank`), in order. The blocks are computed in batches of
-    /// [`Q_BATCH`] (with wide vectors where the processor has them).
-    fn for_each_q_block(&self, mut f: impl FnMut(usize, usize, &[f64])) {
+    /// Calls `f(start, h, q)` for each block of rows `from..to` of Q
+    /// (column-major `h x rank`), in order. The blocks are computed in
+    /// batches of [`Q_BATCH`] (with wide vectors where the processor has them).
+    fn for_each_q_block(&self, from: usize, to: usize, mut f: impl FnMut(usize, usize, &[f64])) {
         let r = self.rank;
         let cols: Vec<(&DdColumn, f64)> = self.accepted.iter().map(|&j| (&self.system[j], self.scales[j])).collect();
         let r_inv_f: Vec<f64> = self.r_inv.iter().map(|v| v.hi).collect();
         let mut out = vec![0.0; rows::BLOCK * Q_BATCH * r];
-        let mut start = 0;
-        while start < self.rows {
-            let end = (start + rows::BLOCK * Q_BATCH).min(self.rows);
+        let mut start = from;
+        while start < to {
+            let end = (start + rows::BLOCK * Q_BATCH).min(to);
             let heights = match self.path {
                 SolverPath::Double => q_blocks_f64(&cols, &r_inv_f, start, end, &mut out),
                 SolverPath::DoubleDouble => q_blocks_dd(&cols, &self.r_inv, start, end, &mut out),
@@ -472,39 +496,58 @@ impl LstsqSolution {
         }
     }
 
+    /// `f(from, to)` for each chunk of [`rows::CHUNK_ROWS`] rows, on the
+    /// solution's threads, in chunk order.
+    fn map_row_chunks<R: Send>(&self, f: impl Fn(usize, usize) -> R + Sync) -> Vec<R> {
+        let (n, chunk) = (self.rows, rows::CHUNK_ROWS);
+        rows::map_chunks(n.div_ceil(chunk), self.threads, |c| f(c * chunk, ((c + 1) * chunk).min(n)))
+    }
+
     /// Diagonal of the hat matrix X(XᵀX)⁻¹Xᵀ, the squared row norms of Q;
     /// computed on first use (one pass over the rows, O(n·p²)).
     pub fn leverage(&self) -> &[f64] {
         self.leverage.get_or_init(|| {
             let r = self.rank;
-            let mut lev = vec![0.0; self.rows];
-            self.for_each_q_block(|start, h, q| {
-                let out = &mut lev[start..start + h];
-                for k in 0..r {
-                    for (o, v) in out.iter_mut().zip(&q[k * h..(k + 1) * h]) {
-                        *o += v * v;
+            let parts = self.map_row_chunks(|from, to| {
+                let mut lev = vec![0.0; to - from];
+                self.for_each_q_block(from, to, |start, h, q| {
+                    let out = &mut lev[start - from..start - from + h];
+                    for k in 0..r {
+                        for (o, v) in out.iter_mut().zip(&q[k * h..(k + 1) * h]) {
+                            *o += v * v;
+                        }
                     }
-                }
+                });
+                lev
             });
-            lev
+            parts.concat()
         })
     }
 
     /// Qᵀ diag(ω) Q, `rank x rank` row-major.
     fn weighted_gram(&self, omega: &[f64]) -> Vec<f64> {
         let r = self.rank;
-        let mut m = vec![0.0; r * r];
-        self.for_each_q_block(|start, h, q| {
-            let w = &omega[start..start + h];
-            for a in 0..r {
-                let qa = &q[a * h..(a + 1) * h];
-                for b in a..r {
-                    let qb = &q[b * h..(b + 1) * h];
-                    let s: f64 = (0..h).map(|i| qa[i] * w[i] * qb[i]).sum();
-                    m[a * r + b] += s;
+        let parts = self.map_row_chunks(|from, to| {
+            let mut m = vec![0.0; r * r];
+            self.for_each_q_block(from, to, |start, h, q| {
+                let w = &omega[start..start + h];
+                for a in 0..r {
+                    let qa = &q[a * h..(a + 1) * h];
+                    for b in a..r {
+                        let qb = &q[b * h..(b + 1) * h];
+                        let s: f64 = (0..h).map(|i| qa[i] * w[i] * qb[i]).sum();
+                        m[a * r + b] += s;
+                    }
                 }
-            }
+            });
+            m
         });
+        let mut m = vec![0.0; r * r];
+        for part in parts {
+            for (a, b) in m.iter_mut().zip(part) {
+                *a += b;
+            }
+        }
         for a in 0..r {
             for b in 0..a {
                 m[a * r + b] = m[b * r + a];
@@ -597,7 +640,7 @@ impl LstsqSolution {
     pub fn thin_q(&self) -> Vec<f64> {
         let (n, r) = (self.rows, self.rank);
         let mut q = vec![0.0; n * r];
-        self.for_each_q_block(|start, h, block| {
+        self.for_each_q_block(0, n, |start, h, block| {
             for k in 0..r {
                 q[k * n + start..k * n + start + h].copy_from_slice(&block[k * h..(k + 1) * h]);
             }
@@ -740,15 +783,15 @@ mod tests {
             .collect();
         let (mut r1, mut g1) = (vec![DD::ZERO; n], vec![DD::ZERO; p]);
         let (mut r2, mut g2) = (vec![DD::ZERO; n], vec![DD::ZERO; p]);
-        residual_blocks(&terms, &y, &mut r1, &mut g1);
-        residual_blocks_body(&terms, &y, &mut r2, &mut g2);
+        residual_blocks(&terms, &y, 0, &mut r1, &mut g1);
+        residual_blocks_body(&terms, &y, 0, &mut r2, &mut g2);
         assert_eq!(r1, r2);
         assert_eq!(g1, g2);
         assert!(g1.iter().all(|g| g.hi != 0.0));
 
         let scales = vec![1.0; p];
         let refs: Vec<&DdColumn> = x.iter().collect();
-        let wide = tsqr::factor_system::<f64>(&refs, &y, &scales, 1.0, TsqrParams::default());
+        let wide = tsqr::factor_system::<f64>(&refs, &y, &scales, 1.0, TsqrParams::default(), 1);
         let mut plain = tsqr::RFactor::<f64>::zero(p + 1);
         let mut block: Vec<f64> = Vec::new();
         for start in (0..n).step_by(256) {
@@ -773,12 +816,43 @@ mod tests {
         let scaled_y = DdColumn::from_f64(y.hi.iter().map(|v| v * sol.y_scale).collect());
         let coef: Vec<DD> = sol.coef_dd.iter().map(|c| c.scale(sol.y_scale)).collect();
         let accepted: Vec<usize> = (0..p).collect();
-        let (fast, _) = residual_pass(&x, &scaled_y, &accepted, &coef, sol.scales(), false);
+        let (fast, _) = residual_pass(&x, &scaled_y, &accepted, &coef, sol.scales(), false, 1);
         let slow = residuals_dd(&x, &scaled_y, &accepted, &coef);
         for (a, b) in fast.iter().zip(&slow) {
             assert!((*a - *b).abs().to_f64() <= 1e-30 * b.abs().to_f64().max(1e-3), "{a:?} vs {b:?}");
         }
         let total: f64 = sol.leverage().iter().sum();
         assert!((total - p as f64).abs() < 1e-12, "Σh = {total}");
+    }
+}
+
+#[cfg(test)]
+mod thread_tests {
+    use super::*;
+    use crate::select::cv::SplitMix64;
+
+    /// Chunks are fixed by the number of rows and combined in chunk order,
+    /// so one thread and three give the same bits: coefficients, residuals,
+    /// leverages and the sandwich.
+    #[test]
+    fn the_number_of_threads_does_not_change_a_bit() {
+        let n = 3 * rows::CHUNK_ROWS + 123;
+        let mut rng = SplitMix64::new(21);
+        let mut u = || (rng.next_u64() >> 11) as f64 / (1u64 << 53) as f64 - 0.5;
+        let mut x = vec![DdColumn::from_f64(vec![1.0; n])];
+        for _ in 0..3 {
+            x.push(DdColumn::from_f64((0..n).map(|_| u()).collect()));
+        }
+        let y = DdColumn::from_f64((0..n).map(|i| 2.0 + x[1].hi[i] - 3.0 * x[3].hi[i] + u()).collect());
+        let run = |threads| solve_lstsq(&x, &y, &LstsqOptions { threads, ..LstsqOptions::default() });
+        let (one, three) = (run(1), run(3));
+        assert_eq!(one.path, SolverPath::Double);
+        assert_eq!(one.coef_dd, three.coef_dd);
+        assert_eq!(one.residuals, three.residuals);
+        assert_eq!(one.rss_scaled, three.rss_scaled);
+        assert_eq!(one.leverage(), three.leverage());
+        let omega: Vec<f64> = one.residuals.iter().map(|e| e.hi * e.hi).collect();
+        assert_eq!(one.sandwich(&omega), three.sandwich(&omega));
+        assert!((one.coef[1] - 1.0).abs() < 0.02 && (one.coef[3] + 3.0).abs() < 0.02, "{:?}", one.coef);
     }
 }

@@ -8,6 +8,8 @@ use std::ops::{Add, Div, Mul, Neg, Sub};
 /// A real number type the least-squares kernel can compute in.
 pub trait Real:
     Copy
+    + Send
+    + Sync
     + PartialOrd
     + Add<Output = Self>
     + Sub<Output = Self>

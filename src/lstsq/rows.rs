@@ -29,6 +29,41 @@ use super::DdColumn;
 /// Rows per block: 256 rows of 50 columns are 100 kB, within L2 cache.
 pub const BLOCK: usize = 256;
 
+/// Rows per chunk of the passes that may run on several threads. The
+/// chunks depend only on the number of rows, never on the number of
+/// threads, and their results are combined in chunk order, so a fit gives
+/// the same bits on one thread or eight, natively or in wasm.
+pub const CHUNK_ROWS: usize = 32 * 1024;
+
+/// The threads a fit may use when the caller leaves it to the machine:
+/// every core (at most 8) natively, one in wasm.
+pub fn machine_threads() -> usize {
+    #[cfg(target_arch = "wasm32")]
+    {
+        1
+    }
+    #[cfg(not(target_arch = "wasm32"))]
+    {
+        std::thread::available_parallelism().map_or(1, |n| n.get()).min(8)
+    }
+}
+
+/// `f(i)` for i in `0..count`, in index order, computed on up to
+/// `threads` threads (each takes a contiguous run of indices).
+pub fn map_chunks<R: Send>(count: usize, threads: usize, f: impl Fn(usize) -> R + Sync) -> Vec<R> {
+    let threads = threads.clamp(1, count.max(1));
+    if threads == 1 {
+        return (0..count).map(f).collect();
+    }
+    let per = count.div_ceil(threads);
+    std::thread::scope(|scope| {
+        let f = &f;
+        let handles: Vec<_> =
+            (0..threads).map(|t| scope.spawn(move || (t * per..((t + 1) * per).min(count)).map(f).collect::<Vec<R>>())).collect();
+        handles.into_iter().flat_map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e))).collect()
+    })
+}
+
 /// Coefficients this large or larger are not split (see the module doc).
 pub const SPLIT_LIMIT: f64 = 1e290;
 

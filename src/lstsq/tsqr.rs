@@ -278,15 +278,45 @@ pub fn solve_lstsq_tsqr<T: Real>(x: &[impl Borrow<DdColumn>], y: &DdColumn, opti
     let x: Vec<&DdColumn> = x.iter().map(|c| c.borrow()).collect();
     let scales: Vec<f64> = x.iter().map(|c| pow2_scale(&c.hi)).collect();
     let y_scale = pow2_scale(&y.hi);
-    let r = factor_system::<T>(&x, y, &scales, y_scale, options.tsqr);
+    let r = factor_system::<T>(&x, y, &scales, y_scale, options.tsqr, 1);
     solve_from_r(&r, n, &scales, y_scale, options.rank_tol)
 }
 
 /// The R factor of [X·diag(scales)  y·y_scale] (`p + 1` columns, y last),
-/// block by block in arithmetic `T`. Only one block of rows is copied at a
-/// time, column by column, so each input column is read in order.
-pub fn factor_system<T: Real>(x: &[&DdColumn], y: &DdColumn, scales: &[f64], y_scale: f64, params: TsqrParams) -> RFactor<T> {
+/// in arithmetic `T`. The rows are cut into chunks of
+/// [`super::rows::CHUNK_ROWS`]; each chunk's R is built block by block
+/// (only one block of rows copied at a time, column by column, so each
+/// input column is read in order), on up to `threads` threads, and the
+/// chunks' R factors are merged pairwise in a fixed tree ([`merge_r`]).
+/// The chunks and the tree depend only on the number of rows, so the
+/// result is the same bits on any number of threads.
+pub fn factor_system<T: Real>(x: &[&DdColumn], y: &DdColumn, scales: &[f64], y_scale: f64, params: TsqrParams, threads: usize) -> RFactor<T> {
     let (n, p) = (y.len(), x.len());
+    let chunk = super::rows::CHUNK_ROWS;
+    let count = n.div_ceil(chunk).max(1);
+    let mut level = super::rows::map_chunks(count, threads, |c| {
+        let (from, to) = (c * chunk, ((c + 1) * chunk).min(n));
+        factor_rows::<T>(x, y, scales, y_scale, params, from, to)
+    });
+    while level.len() > 1 {
+        let mut next = Vec::with_capacity(level.len().div_ceil(2));
+        let mut it = level.into_iter();
+        while let Some(a) = it.next() {
+            next.push(match it.next() {
+                Some(b) => merge_r(&a, &b),
+                None => a,
+            });
+        }
+        level = next;
+    }
+    let r = level.pop().unwrap_or_else(|| RFactor::zero(p + 1));
+    debug_assert_eq!(r.rows, n);
+    r
+}
+
+/// The R factor of rows `from..to` of the scaled system, block by block.
+fn factor_rows<T: Real>(x: &[&DdColumn], y: &DdColumn, scales: &[f64], y_scale: f64, params: TsqrParams, from: usize, to: usize) -> RFactor<T> {
+    let p = x.len();
     let b = params.block_rows.max(1);
     let mut r = RFactor::<T>::zero(p + 1);
     let mut block = vec![T::zero(); b * (p + 1)];
@@ -294,9 +324,9 @@ pub fn factor_system<T: Real>(x: &[&DdColumn], y: &DdColumn, scales: &[f64], y_s
         None => dst.iter_mut().zip(&c.hi[start..]).for_each(|(d, &v)| *d = T::from_f64(v * s)),
         Some(_) => dst.iter_mut().enumerate().for_each(|(k, d)| *d = T::from_dd(c.get(start + k).scale(s))),
     };
-    let mut start = 0;
-    while start < n {
-        let h = b.min(n - start);
+    let mut start = from;
+    while start < to {
+        let h = b.min(to - start);
         for (j, c) in x.iter().enumerate() {
             fill(&mut block[j * h..(j + 1) * h], c, start, scales[j]);
         }

@@ -176,13 +176,16 @@ def fits(binary, quick, seed=1):
             reps = 3 if n <= 10**5 else 1
             native = [run_json([binary, "bench", "fit", "--rows", n, "--cols", p, "--seed", seed, "--json"]) for _ in range(reps)]
             nat = min(native, key=lambda r: r["seconds"])
+            one = min(run_json([binary, "bench", "fit", "--rows", n, "--cols", p, "--seed", seed, "--threads", 1, "--json"])["seconds"]
+                      for _ in range(reps))
             streaming = min(run_json([binary, "bench", "fit", "--rows", n, "--cols", p, "--seed", seed, "--streaming", "--json"])["seconds"]
                             for _ in range(reps))
             np1 = run_json(self_cmd("--numpy-fit", n, p, seed, reps), env=threads_env(1))["seconds"]
             npall = run_json(self_cmd("--numpy-fit", n, p, seed, reps), env=threads_env(None))["seconds"]
             row = {"rows": n, "cols": p, "native": nat["seconds"], "gflops": nat["gflops"], "flops": nat["flops"],
-                   "path": nat["solver_path"], "numpy_1": np1, "numpy_all": npall, "repeats": reps, "streaming": streaming}
-            print(f"  fit {human_n(n)} x {p}: native {row['native']:.3f} s, streaming {streaming:.3f} s, numpy {np1:.3f} s (1 thread), "
+                   "path": nat["solver_path"], "numpy_1": np1, "numpy_all": npall, "repeats": reps, "streaming": streaming,
+                   "leverage": nat.get("leverage_seconds") or 0.0, "native_1": one, "threads": nat.get("threads", 1)}
+            print(f"  fit {human_n(n)} x {p}: native {row['native']:.3f} s ({row['threads']} threads), {one:.3f} s (1 thread), streaming {streaming:.3f} s, numpy {np1:.3f} s (1 thread), "
                   f"{npall:.3f} s (all)", flush=True)
             out.append(row)
     return out
@@ -357,7 +360,7 @@ def report(res, quick):
     w("")
     w("Reproduce: `bash tests/bench/run.sh` (`--quick` for a smaller run written to `target/bench/BENCHMARKS.quick.md`; raw figures go to "
       f"`{WORK}/results.json`). Single cases: `target/release/plumbline bench fit --rows 1e6 --cols 50 --json` (add `--streaming` for the "
-      "streaming kernel), `target/release/plumbline bench select --terms 30 --rows 300 --json`, `target/release/plumbline bench read FILE --json`.")
+      "bare streaming kernel), `target/release/plumbline bench select --terms 30 --rows 300 --json`, `target/release/plumbline bench read FILE --json`.")
     w("")
 
     # targets
@@ -368,15 +371,16 @@ def report(res, quick):
     f = {(r["rows"], r["cols"]): r for r in res["fits"]}
     big = f.get((10**6, 50)) or f.get((10**5, 50))
     if big:
-        ratio = big["native"] / big["numpy_1"]
         ratio_all = big["native"] / big["numpy_all"]
-        sr = big["streaming"] / big["numpy_1"]
-        w(f"| native fit at n = {human_n(big['rows'])}, p = 50 no slower than numpy.linalg.lstsq | `model::fit` {big['native']:.2f} s; "
-          f"numpy {big['numpy_1']:.2f} s on 1 thread, {big['numpy_all']:.2f} s on all | "
-          + status(ratio <= 1.0, f"{ratio:.1f}× numpy's 1-thread time, {ratio_all:.1f}× its all-thread time")
-          + f" | the fit's kernel is unblocked Householder QR over the whole matrix, then the explicit thin Q, and three copies of the data; "
-            f"the streaming kernel (`lstsq::tsqr`, not yet behind `model::fit`) does the same solve with two refinement passes in "
-            f"{big['streaming']:.2f} s, {sr:.2f}× numpy's 1-thread time. See *Why the fit is slower*. |")
+        one = big["native_1"] / big["numpy_1"]
+        lr = (big["native"] + big["leverage"]) / big["numpy_all"]
+        w(f"| native fit at n = {human_n(big['rows'])}, p = 50 no slower than numpy.linalg.lstsq | `model::fit` {big['native']:.2f} s on "
+          f"{big['threads']} threads, {big['native_1']:.2f} s on 1 (its leverages, computed on first use, {big['leverage']:.2f} s more); "
+          f"numpy {big['numpy_all']:.2f} s on all threads, {big['numpy_1']:.2f} s on 1 | "
+          + status(ratio_all <= 1.0 and one <= 1.0, f"all threads against all threads {ratio_all:.2f}×, one against one {one:.2f}×; "
+                   f"with the leverages {lr:.2f}×")
+          + " | one pass of blocked QR over the rows (chunks of 32,768 rows on the threads, their R factors merged), then three passes of residuals and Xᵀr to twice double precision (refinement) and the "
+            "inference's sums; a third of the time is the factorization. See *Where the fit's time goes*. |")
     wv = [r for r in res.get("wasm", []) if r.get("wasm")]
     if wv:
         worst = max(wv, key=lambda r: r["wasm"] / r["native"])
@@ -408,8 +412,8 @@ def report(res, quick):
     w(f"| peak memory of the {human_n(mem['rows'])} × {mem['cols']} fit at most 1.5× the data | `model::fit`: {mem['rss_mb']:,.0f} MB max RSS "
       f"for {mem['data_mb']:,.0f} MB of data; streaming kernel: {mem['streaming_rss_mb']:,.0f} MB | " + status(ratio <= 1.5, f"{ratio:.1f}× the data; "
       f"the streaming kernel {sratio:.1f}×")
-      + " | `model::fit` holds the table, the design's copy, the weighted copy, the matrix being factored and the thin Q (twice for a moment); "
-        "the streaming kernel holds the table and the design's copy only. The rest of the way is the plan in *Memory*. |")
+      + " | the table (1×), shared by the design and the solution, plus the residuals in double-double (16 bytes a row), the response "
+        "scaled (8 bytes a row) and a few vectors of n for the inference. See *Memory*. |")
     w("")
 
     # peak
@@ -417,33 +421,42 @@ def report(res, quick):
     w("")
     w(f"Peak measured by a {pk['size']} × {pk['size']} matrix product in numpy (dgemm, 2n³ flops): **{pk['one_thread']:.1f} GFLOP/s on one thread** "
       f"(OPENBLAS_NUM_THREADS=1) and **{pk['all_threads']:.1f} GFLOP/s on all threads** (the second core is shared, so this can come out lower). "
-      "plumbline runs on one thread, so its GFLOP/s are set against the one-thread figure.")
+      "The fit uses every core natively (one in wasm), so its GFLOP/s on all threads are set against the all-thread figure; the search and the "
+      "readers run on one thread.")
     w("")
 
     # fits
     w("## Fit against numpy.linalg.lstsq")
     w("")
     w("The same matrix (the intercept and p − 1 uniform columns, seed 1, from `plumbline bench fit`; the script checks its numpy copy bit for bit) "
-      "solved by `model::fit` (design, weighting, scaled Householder QR, the condition bound, two refinement steps with double-double "
-      "residuals, thin Q and leverages, inference), by the streaming kernel (`bench fit --streaming`: the design, `lstsq::tsqr` in blocks of "
-      "256 rows, two refinement passes with double-double residuals; no leverages, no inference), and by `numpy.linalg.lstsq` (LAPACK gelsd). "
+      "solved by `model::fit` (the design, sharing the table's columns; the R factor of the scaled [X y] by blocked Householder QR, "
+      "256 rows a block; rank, the condition bound and β from R; two refinement steps by the corrected semi-normal equations with residuals "
+      "and Xᵀr accumulated to twice double precision; the final residuals; inference), by the bare streaming kernel (`bench fit --streaming`: "
+      "`lstsq::tsqr` with its own refinement in double-double arithmetic; no bound, no inference), and by `numpy.linalg.lstsq` (LAPACK gelsd). "
+      "The fit's leverages (a pass computing rows of Q = XR⁻¹) are computed on first use, by the diagnostics or HC3, and timed apart. "
       "Flops are Householder QR's 2np² − 2p³/3; GFLOP/s is that count over the whole fit's time, so it understates the kernel alone.")
     w("")
-    w("| n | p | QR flops | `model::fit` (s) | streaming (s) | numpy, 1 thread (s) | numpy, all threads (s) | fit / numpy 1 thread | streaming / numpy 1 thread | fit GFLOP/s | % of 1-thread peak | path |")
-    w("|---|---|---|---|---|---|---|---|---|---|---|---|")
+    w("| n | p | QR flops | `model::fit`, all threads (s) | `model::fit`, 1 thread (s) | leverages (s) | bare streaming kernel, 1 thread (s) | numpy, all threads (s) | numpy, 1 thread (s) | fit / numpy, all threads | fit / numpy, 1 thread | fit + leverages / numpy, all threads | fit GFLOP/s (all threads) | % of all-thread peak | path |")
+    w("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|")
     for r in res["fits"]:
-        w(f"| {human_n(r['rows'])} | {r['cols']} | {r['flops']:.3g} | {r['native']:.3f} | {r['streaming']:.3f} | {r['numpy_1']:.3f} | {r['numpy_all']:.3f} | "
-          f"{r['native'] / r['numpy_1']:.1f}× | {r['streaming'] / r['numpy_1']:.2f}× | {r['gflops']:.2f} | {100 * r['gflops'] / pk['one_thread']:.1f}% | {r['path']} |")
+        w(f"| {human_n(r['rows'])} | {r['cols']} | {r['flops']:.3g} | {r['native']:.3f} | {r['native_1']:.3f} | {r['leverage']:.3f} | {r['streaming']:.3f} | {r['numpy_all']:.3f} | {r['numpy_1']:.3f} | "
+          f"{r['native'] / r['numpy_all']:.2f}× | {r['native_1'] / r['numpy_1']:.2f}× | {(r['native'] + r['leverage']) / r['numpy_all']:.2f}× | {r['gflops']:.2f} | {100 * r['gflops'] / pk['all_threads']:.1f}% | {r['path']} |")
     w("")
-    w("### Why the fit is slower")
+    w("### Where the fit's time goes")
     w("")
-    w("- `model::fit` factors the whole n × p matrix with one reflector at a time: each reflector sweeps the matrix in memory, so for large n "
-      "the work is bound by memory traffic, not by arithmetic. The streaming kernel applies the reflectors to blocks of 256 rows that stay in cache.")
-    w("- The fit then forms the explicit thin Q (about as many flops again) for leverages and HC3, and copies the data three times on the way in "
-      "(see *Memory*).")
-    w("- The code is portable scalar Rust without FMA, on purpose: native and wasm results are bit-identical. LAPACK's blocked, vectorised "
-      "kernels reach a larger share of the dgemm peak. Where the streaming kernel is still slower than numpy (small p), the costs of O(np) "
-      "beside the factorization weigh more: the design's copy of the data and the two refinement passes in double-double.")
+    w("- A profile of `plumbline bench fit --rows 1e6 --cols 50` on one thread (perf, one run on 2026-12-02, the whole process: generating the "
+      "data, the fit, the leverages) put 24% in the blocked factorization, 19% in the passes of residuals and Xᵀr, 11% in the leverage pass, "
+      "11% in the inference (sums of squares in double-double, the standardized coefficients), 6% in generating the data and 6% in the "
+      "design's checks.")
+    w("- On several threads the factorization, the residual passes and the leverages run in chunks of 32,768 rows, one chunk per task; "
+      "the inference, the design's checks and the bound stay on one thread. The chunks and the order their results are combined in depend "
+      "only on the number of rows, so the bits are the same on any number of threads (a unit test checks one against three).")
+    w("- The hot loops are portable Rust without FMA, on purpose: native and wasm results are bit-identical. On x86-64 the same loops are "
+      "also compiled for AVX2 and chosen at run time (same bits; a unit test compares both builds); wasm runs 128-bit or scalar code. "
+      "LAPACK's blocked, vectorised kernels with FMA reach a larger share of the dgemm peak; at small p (10) and 10⁴ rows the fixed costs of "
+      "the fit (the inference, the bound, several passes of O(np)) weigh more than the factorization, and numpy stays ahead.")
+    w("- Accuracy is not traded for speed: the residuals are still accumulated to twice double precision, and a design whose condition bound "
+      "promises fewer than 13 digits still goes to the double-double path (tests/nist.rs is the contract).")
     w("")
 
     # wasm
@@ -462,8 +475,8 @@ def report(res, quick):
             ratio = f"{r['wasm'] / r['native']:.2f}×" if r.get("wasm") else f"failed: {r.get('error')}"
             w(f"| {r['what']} | {r['rows']:,} | {r['cols']} | {r['mb']:.1f} | {r['native']:.3f} | {fmt(r.get('wasm'))} | {ratio} | {fmt(r.get('first'))} |")
         w("")
-        w("The 10⁶ × 50 fit is not run in wasm: its CSV is about 1 GB of text, and the bytes, the table and the fit's copies of the data would not fit "
-          "in wasm32's 4 GiB address space. It needs the streaming path behind `model::fit` and the chunked reading of issue 8, item 2.")
+        w("The 10⁶ × 50 fit is not run in wasm: its CSV is about 1 GB of text, and reading it takes minutes on each side, so the comparison would "
+          "time the reader, not the fit. The fit no longer copies the data, but the 1 GB of bytes and the table must both sit in wasm32's 4 GiB.")
     else:
         w(f"Not measured in this run: {res.get('wasm_missing', 'skipped')}.")
     w("")
@@ -515,8 +528,8 @@ def report(res, quick):
         w(f"| {r['file']} | {r['mb']:.1f} | {r['rows']:,} × {r['cols']} | {r['read']:.2f} | {r['mb'] / r['read']:.0f} | "
           f"{r['profile_wall']:.2f} | {r['profile_rss_mb']:,.0f} | {wasm} |")
     w("")
-    w("In the page the same `inspect` runs in the worker on the whole file at once; reading in chunks with a progress bar and cancel "
-      "(issue 8, item 2) is not built yet. The issue names no target time for loads.")
+    w("In the page the same `inspect` runs in the worker, which shows the reader's progress in a bar and can stop it (issue 8, item 2); "
+      "a workbook reports progress only at its start and end, and the profile step has none. The issue names no target time for loads.")
     w("")
 
     # memory
@@ -524,20 +537,16 @@ def report(res, quick):
     w("")
     w(f"`/usr/bin/time -v plumbline bench fit --rows {human_n(mem['rows'])} --cols {mem['cols']}`: maximum resident set "
       f"**{mem['rss_mb']:,.0f} MB**, against {mem['data_mb']:,.0f} MB of data (the table of y and {mem['cols'] - 1} columns, 8 bytes a cell): "
-      f"**{mem['rss_mb'] / mem['data_mb']:.1f}×**. With `--streaming`: **{mem['streaming_rss_mb']:,.0f} MB, "
-      f"{mem['streaming_rss_mb'] / mem['data_mb']:.1f}×**. The program alone (100 × 2) peaks at {mem['base_mb']:.0f} MB. "
+      f"**{mem['rss_mb'] / mem['data_mb']:.2f}×** (the leverages, computed after the fit, included). With `--streaming`: **{mem['streaming_rss_mb']:,.0f} MB, "
+      f"{mem['streaming_rss_mb'] / mem['data_mb']:.2f}×**. The program alone (100 × 2) peaks at {mem['base_mb']:.0f} MB. "
       f"numpy.linalg.lstsq on the same matrix peaks at {mem['numpy_rss_mb']:,.0f} MB (its matrix, gelsd's copy and the interpreter).")
     w("")
-    w("Where `model::fit`'s memory goes, in units of the data (D): the table (1 D), the design's copy of its columns (1 D), `weighted_system`'s "
-      "copy (1 D, even without weights), the scaled matrix the QR factors in place (1 D), then the thin Q in the kernel's type and its f64 copy "
-      "(1 D each, both alive for a moment), kept in `LstsqSolution` for leverages and HC3. The streaming kernel needs the table and the design "
-      "(2 D) and O(p²) + one block beyond them.")
-    w("")
-    w("The plan to 1.5 D (DEVELOPERS.md, *Streaming least squares*): (1) behind `model::fit`, for large n·p and a condition bound that "
-      "promises the target digits, solve with `lstsq::tsqr` and its refinement passes (the double-double path stays as it is for "
-      "ill-conditioned designs); (2) leverages row by row as ‖R⁻ᵀxᵢ‖² and the HC3 sandwich from R⁻¹ and the rows, so `LstsqSolution` keeps "
-      "no n × p Q; (3) no `weighted_system` copy without weights; (4) the design borrowing plain table columns instead of copying them. "
-      "(1)–(3) bring the fit to 2 D; (4) to 1 D plus the residuals (16 bytes a row) and the leverages (8 bytes a row).")
+    w("Where `model::fit`'s memory goes, in units of the data (D): the table (1 D), which the design, the kernel and the solution share "
+      "(`values::Values`, reference-counted); the R factor and one block of 256 rows (O(p²)); the residuals in double-double (16 bytes a row), "
+      "the scaled response and the rows used (8 bytes a row each), and the inference's vectors of n; the leverages (8 bytes a row) once asked "
+      "for. What still costs a copy: a transformed term (log, power, product, dummies), a plain column when rows are left out for missing "
+      "values (the rows used are copied), a weighted fit (the √w-weighted system, in double-double), and the double-double path of an "
+      "ill-conditioned design, which factors the whole matrix in double-double (about 2 D more, plus Q while refining).")
     w("")
     return "\n".join(L) + "\n"
 
