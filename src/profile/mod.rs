@@ -192,17 +192,23 @@ pub fn default_terms(profile: &TableProfile, exclude: &[&str]) -> Vec<String> {
 
 /// Profiles every column.
 pub fn profile_table(table: &Table, options: &ProfileOptions) -> TableProfile {
-    TableProfile {
-        rows: table.n_rows(),
-        columns: table
-            .columns
-            .iter()
-            .map(|c| {
-                let forced = options.kinds.iter().find(|(n, _)| *n == c.name).map(|(_, k)| *k);
-                profile_column(c, forced)
-            })
-            .collect(),
+    profile_table_progress(table, options, &mut |_| true).expect("never stopped")
+}
+
+/// As [`profile_table`], calling `progress` with the share of columns
+/// profiled after each column; `None` when `progress` returns `false`
+/// (the caller stopped it).
+pub fn profile_table_progress(table: &Table, options: &ProfileOptions, progress: crate::read::Progress) -> Option<TableProfile> {
+    let total = table.columns.len().max(1) as f64;
+    let mut columns = Vec::with_capacity(table.columns.len());
+    for (j, c) in table.columns.iter().enumerate() {
+        let forced = options.kinds.iter().find(|(n, _)| *n == c.name).map(|(_, k)| *k);
+        columns.push(profile_column(c, forced));
+        if !progress((j + 1) as f64 / total) {
+            return None;
+        }
     }
+    Some(TableProfile { rows: table.n_rows(), columns })
 }
 
 /// Profiles one column; `forced` is the kind the user set, if any.
@@ -517,6 +523,25 @@ fn text_verdict(p: &mut ColumnProfile, n: usize) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_profile_reports_each_column_done_and_can_be_stopped() {
+        let t = Table::from_numeric(vec![("a".into(), vec![1.0, 2.0, 4.0]), ("b".into(), vec![3.0, 1.0, 2.0]), ("c".into(), vec![0.0; 3])]);
+        let mut seen = Vec::new();
+        let p = profile_table_progress(&t, &ProfileOptions::default(), &mut |s| {
+            seen.push(s);
+            true
+        });
+        assert_eq!(p.map(|p| p.columns.len()), Some(3));
+        assert_eq!(seen, [1.0 / 3.0, 2.0 / 3.0, 1.0]);
+        let mut calls = 0;
+        let stopped = profile_table_progress(&t, &ProfileOptions::default(), &mut |_| {
+            calls += 1;
+            calls < 2
+        });
+        assert!(stopped.is_none());
+        assert_eq!(calls, 2, "stops right after the column whose report said stop");
+    }
 
     #[test]
     fn counts_are_written_with_thousands_separated() {

@@ -1096,9 +1096,12 @@ test('a large file shows how much is read, Cancel ends the load and keeps what w
     // Every value the bar takes, from the page itself.
     await page.evaluate(() => {
       window.loadSeen = [];
+      window.loadTexts = [];
       const bar = document.getElementById('load-progress');
       new MutationObserver(() => window.loadSeen.push(Number(bar.getAttribute('aria-valuenow'))))
         .observe(bar, { attributes: true, attributeFilter: ['aria-valuenow'] });
+      new MutationObserver(() => window.loadTexts.push(bar.getAttribute('aria-valuetext')))
+        .observe(bar, { attributes: true, attributeFilter: ['aria-valuetext'] });
     });
     const workersBefore = workers.length;
     const before = await page.evaluate(() => window.plumblineTest.inspectsDone());
@@ -1112,7 +1115,7 @@ test('a large file shows how much is read, Cancel ends the load and keeps what w
     assert.ok(await page.isVisible('#load-cancel'), 'Cancel is offered while it loads');
     assert.match(await page.textContent('#load-status'), /^(?:Reading "large-40mb\.csv"…|Read "large-40mb\.csv"; looking at its columns…)$/);
     assert.match(await page.textContent('#load-percent'), /^\d+%$/);
-    assert.match(await page.getAttribute('#load-progress', 'aria-valuetext'), /^\d+% of "large-40mb\.csv" read$/);
+    assert.match(await page.getAttribute('#load-progress', 'aria-valuetext'), /^(?:\d+% of "large-40mb\.csv" read|\d+%: "large-40mb\.csv" read, looking at its columns)$/);
     await page.locator('#data').screenshot({ path: join(shots, '22b-loading-a-large-file.png') });
     await page.click('#load-cancel');
     await page.waitForFunction((n) => window.plumblineTest.inspectsDone() > n, before, { timeout: 20000 });
@@ -1138,7 +1141,7 @@ test('a large file shows how much is read, Cancel ends the load and keeps what w
     assert.ok(await page.isHidden('#model-message'));
 
     // The same file, allowed to finish, opens.
-    await page.evaluate(() => { window.loadSeen = []; });
+    await page.evaluate(() => { window.loadSeen = []; window.loadTexts = []; });
     await page.setInputFiles('#file-input', big);
     await page.locator('#data-facts').filter({ hasText: 'large-40mb.csv' }).waitFor({ timeout: 240000 });
     assert.equal(await page.textContent('#data-facts'), 'large-40mb.csv: 400000 rows of data, 10 columns.');
@@ -1148,6 +1151,11 @@ test('a large file shows how much is read, Cancel ends the load and keeps what w
     assert.equal(await page.locator('#columns-table tbody tr').count(), 10);
     const again = await page.evaluate(() => window.loadSeen);
     assert.ok(again.some((v) => v > 0 && v < 100), `the bar moved on the way (${again.join(', ')})`);
+    // Reading first, then the columns: the bar says which, and never goes back to reading.
+    const texts = await page.evaluate(() => window.loadTexts);
+    const phase = (t) => (/looking at its columns$/.test(t) ? 1 : 0);
+    assert.ok(texts.some((t) => phase(t) === 0) && texts.some((t) => phase(t) === 1), `both phases shown (${texts.join(' | ')})`);
+    assert.ok(texts.every((t, i) => i === 0 || phase(t) >= phase(texts[i - 1])), `reading, then the columns (${texts.join(' | ')})`);
     assert.deepEqual(pageErrors, []);
   } finally {
     unlinkSync(big);

@@ -290,7 +290,7 @@ async function inspectBytes(bytes, read, kinds, load = null) {
   const request = { ...read, preview_rows: PREVIEW_ROWS };
   if (kinds && Object.keys(kinds).length) request.kinds = kinds;
   try {
-    return await engine.inspect(bytes, request, load ? (share) => loadProgress(load, share) : null);
+    return await engine.inspect(bytes, request, load ? (share, phase) => loadProgress(load, share, phase) : null);
   } finally {
     if (load) endLoad(load);
     state.inspectsDone += 1;
@@ -306,7 +306,7 @@ async function inspectBytes(bytes, read, kinds, load = null) {
  */
 function startLoad(name, verb = 'Reading') {
   if (state.loading) endLoad(state.loading);
-  const load = { name, verb, share: 0, shown: false, cancelled: false, timer: null };
+  const load = { name, verb, share: 0, phase: 'read', shown: false, cancelled: false, timer: null };
   load.timer = setTimeout(() => {
     if (state.loading !== load) return;
     load.shown = true;
@@ -317,19 +317,21 @@ function startLoad(name, verb = 'Reading') {
   return load;
 }
 
-function loadProgress(load, share) {
+function loadProgress(load, share, phase) {
   load.share = share;
+  if (phase) load.phase = phase;
   if (load.shown && state.loading === load) renderLoad(load);
 }
 
 function renderLoad(load) {
   const pct = Math.max(0, Math.min(100, Math.floor(load.share * 100)));
   el.loadProgress.setAttribute('aria-valuenow', String(pct));
-  el.loadProgress.setAttribute('aria-valuetext', `${pct}% of "${load.name}" read`);
+  const columns = load.phase === 'columns';
+  el.loadProgress.setAttribute('aria-valuetext', columns ? `${pct}%: "${load.name}" read, looking at its columns` : `${pct}% of "${load.name}" read`);
   el.loadProgressBar.style.width = `${pct}%`;
   el.loadPercent.textContent = `${pct}%`;
   // The status is read out when it changes, so it changes only twice; the bar tells the share.
-  const status = pct >= 100 ? `Read "${load.name}"; looking at its columns…` : `${load.verb} "${load.name}"…`;
+  const status = columns ? `Read "${load.name}"; looking at its columns…` : `${load.verb} "${load.name}"…`;
   if (el.loadStatus.textContent !== status) el.loadStatus.textContent = status;
 }
 

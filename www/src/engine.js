@@ -96,7 +96,7 @@ export class Engine {
     }
     const job = this.pending.get(msg.id);
     if (msg.type === 'progress') {
-      if (job && job.onProgress) job.onProgress(msg.share);
+      if (job && job.onProgress) job.onProgress(msg.share, msg.phase ?? null);
       return;
     }
     if (msg.type === 'panic') {

@@ -51,16 +51,18 @@ function panicMessage(e) {
   return message ?? `The calculation stopped on an internal error, which is a bug: ${e && e.message ? e.message : e}`;
 }
 
-/** A progress callback for the wasm that posts the share, not too often. */
+/** A progress callback for the wasm that posts the share (and the phase, when it says one), not too often. */
 function progressPoster(id) {
   let lastTime = 0;
   let lastShare = -1;
-  return (share) => {
+  let lastPhase = null;
+  return (share, phase = null) => {
     const now = Date.now();
-    if (share >= 1 || share - lastShare >= 0.02 || now - lastTime >= PROGRESS_EVERY_MS) {
+    if (share >= 1 || phase !== lastPhase || share - lastShare >= 0.02 || now - lastTime >= PROGRESS_EVERY_MS) {
       lastTime = now;
       lastShare = share;
-      self.postMessage({ type: 'progress', id, share });
+      lastPhase = phase;
+      self.postMessage({ type: 'progress', id, share, phase });
     }
   };
 }
