@@ -208,8 +208,8 @@ pub fn inspect(bytes: &[u8], request: &str) -> String {
 /// As [`inspect`], calling `progress(share, phase)` now and then with the
 /// share of the whole inspection done (0 to 1) and what it is doing:
 /// `"read"` while the file is read (the first [`READ_PART`] of the share;
-/// both passes over delimited text, a workbook only before and after its
-/// sheet), then `"columns"` while the columns are profiled, one step per
+/// both passes over delimited text, the rows of an .xlsx sheet, other
+/// workbooks only before and after their sheet), then `"columns"` while the columns are profiled, one step per
 /// column. When `progress` returns `false` the inspection stops and the
 /// answer is the error of kind `read` that says so. The page's worker uses
 /// it to move a progress bar; the page cancels a load by ending the

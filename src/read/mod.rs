@@ -170,14 +170,15 @@ pub fn read_paste(text: &str, options: &ReadOptions) -> Result<Loaded, ReadError
 pub type Progress<'a> = &'a mut dyn FnMut(f64) -> bool;
 
 /// As [`read_table`], reporting progress: delimited text every few
-/// thousand records of each of its two passes; a workbook only before and
-/// after its sheet is parsed (the library parses a sheet in one call).
+/// thousand records of each of its two passes; an .xlsx every 65,536 cells
+/// of its sheet; other workbooks only before and after their sheet (the
+/// library parses those in one call).
 pub fn read_table_progress(bytes: &[u8], options: &ReadOptions, progress: Progress) -> Result<Loaded, ReadError> {
     if is_workbook(bytes) {
         if !progress(0.0) {
             return Err(ReadError::Stopped);
         }
-        let loaded = workbook::read_workbook(bytes, options, Format::Workbook)?;
+        let loaded = workbook::read_workbook_progress(bytes, options, Format::Workbook, &mut *progress)?;
         progress(1.0);
         Ok(loaded)
     } else {

@@ -529,7 +529,7 @@ def report(res, quick):
           f"{r['profile_wall']:.2f} | {r['profile_rss_mb']:,.0f} | {wasm} |")
     w("")
     w("In the page the same `inspect` runs in the worker, which shows the reader's progress in a bar and can stop it (issue 8, item 2); "
-      "a workbook reports progress only at its start and end, and the profile step has none. The issue names no target time for loads.")
+      "an .xlsx reports it as its rows are parsed, other workbooks only at the start and the end; the profile reports each column. The issue names no target time for loads.")
     w("")
 
     # memory
