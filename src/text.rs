@@ -406,6 +406,13 @@ pub fn render_select(r: &crate::select::SelectReport) -> String {
     let _ = writeln!(s, "  keeps: {}", if r.p_value_route.terms.is_empty() { "none".into() } else { r.p_value_route.terms.join(", ") });
     if let Some(st) = &r.stability {
         let _ = writeln!(s, "\nHow often each term is chosen ({} bootstrap resamples, seed {})", st.resamples, st.seed);
+        if st.skipped > 0 {
+            let _ = writeln!(
+                s,
+                "({} more left out: in them a candidate had a single value or was a combination of others.)",
+                st.skipped
+            );
+        }
         for t in &st.terms {
             let _ = writeln!(s, "  {:>4}%  {}", (t.share * 100.0).round(), t.term);
         }

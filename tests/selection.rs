@@ -331,3 +331,38 @@ fn the_search_reports_progress_and_stops_when_asked() {
     assert_eq!(r.unwrap_err(), plumbline::select::SelectError::Cancelled);
     assert_eq!(calls, 3);
 }
+
+/// A category level seen in one row only is missed by about a third of the
+/// bootstrap resamples (the chance a row is never drawn in n draws is
+/// (1 − 1/n)ⁿ ≈ e⁻¹); in those its dummy is all zeros and the search cannot
+/// run, so they are left out and counted, and the shares stay proportions.
+#[test]
+fn resamples_that_miss_a_rare_level_are_left_out_and_counted() {
+    let mut rng = Rng::new(404);
+    let n = 60;
+    let x: Vec<f64> = (0..n).map(|_| rng.normal()).collect();
+    let z: Vec<f64> = (0..n).map(|_| rng.normal()).collect();
+    let site: Vec<Option<String>> = (0..n).map(|i| Some(if i == 7 { "rare" } else if i % 2 == 0 { "a" } else { "b" }.to_string())).collect();
+    let y: Vec<f64> = (0..n).map(|i| 1.0 + 2.0 * x[i] + rng.normal()).collect();
+    let table = Table {
+        columns: vec![
+            Column::new("y", ColumnData::Numeric(y.into())),
+            Column::new("x", ColumnData::Numeric(x.into())),
+            Column::new("z", ColumnData::Numeric(z.into())),
+            Column::new("site", ColumnData::Text(site)),
+        ],
+        source_rows: (2..n + 2).collect(),
+        sheet: None,
+        warnings: Vec::new(),
+    };
+    let o = SelectOptions { stability: Some(60), seed: 3, ..SelectOptions::default() };
+    let r = select(&table, &request("y", "x, z, cat(site)", ""), &o, None).unwrap();
+    let st = r.stability.as_ref().unwrap();
+    assert_eq!(st.resamples + st.skipped, 60);
+    // About 60·e⁻¹ ≈ 22 miss the row; far from 0 and from 60 either way.
+    assert!((8..=40).contains(&st.skipped), "{} skipped", st.skipped);
+    assert!((0.0..=1.0).contains(&st.winner_share), "{}", st.winner_share);
+    let share_x = st.terms.iter().find(|t| t.term == "x").unwrap().share;
+    assert!(share_x > 0.9, "x carries the effect: chosen in {share_x} of the resamples");
+    assert!(st.terms.iter().all(|t| (0.0..=1.0).contains(&t.share)), "{:?}", st.terms);
+}

@@ -143,7 +143,12 @@ pub struct Winner {
 /// How often each term is chosen across resamples.
 #[derive(Clone, Debug, Serialize)]
 pub struct Stability {
+    /// Resamples the search was repeated on.
     pub resamples: usize,
+    /// Resamples drawn but left out because in them some candidate had a
+    /// single value or was an exact combination of others (a rare category
+    /// not drawn, say): the search needs every candidate to add a column.
+    pub skipped: usize,
     pub seed: u64,
     pub terms: Vec<TermShare>,
     /// Share of resamples that chose exactly the winning set.
@@ -470,11 +475,13 @@ pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: O
         let mut term_counts = vec![0usize; p.candidates.len()];
         let mut set_counts: Vec<(Vec<usize>, usize)> = Vec::new();
         let mut done = 0usize;
+        let mut skipped = 0usize;
         for _ in 0..b {
             let rows: Vec<usize> = (0..p.n).map(|_| rng.below(p.n as u64) as usize).collect();
             let q = p.resample(&rows);
             let (rss_q, k_q) = q.rss(&all);
-            if q.n <= k_q {
+            if q.n <= k_q || k_q < q.columns_of(&all).len() {
+                skipped += 1;
                 continue;
             }
             let s2 = rss_q / (q.n - k_q) as f64;
@@ -491,6 +498,7 @@ pub fn select(table: &Table, req: &SelectRequest, o: &SelectOptions, progress: O
         let share = |c: usize| if done > 0 { c as f64 / done as f64 } else { f64::NAN };
         let summary = Stability {
             resamples: done,
+            skipped,
             seed: o.seed,
             terms: free.iter().map(|&t| TermShare { term: p.candidates[t].text.clone(), share: share(term_counts[t]) }).collect(),
             winner_share: share(set_counts.iter().find(|(s, _)| *s == winner).map_or(0, |x| x.1)),

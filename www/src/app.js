@@ -1802,8 +1802,11 @@ function renderSelection(r) {
   el.stabilityBlock.hidden = !st;
   el.stabilityBars.textContent = '';
   if (st) {
+    const skipped = st.skipped
+      ? ` ${st.skipped} other ${st.skipped === 1 ? 'resample was' : 'resamples were'} left out: in ${st.skipped === 1 ? 'it' : 'them'} some candidate had a single value or was a combination of others (a rare category not drawn, say).`
+      : '';
     el.stabilityIntro.textContent = `How often each term was chosen when the search was repeated on ${st.resamples} resamples of the rows (seed ${st.seed}). `
-      + `The recommended set itself was chosen in ${shareText(st.winner_share)} of them.`;
+      + `The recommended set itself was chosen in ${shareText(st.winner_share)} of them.${skipped}`;
     for (const t of st.terms) {
       const li = document.createElement('li');
       const name = document.createElement('span');
