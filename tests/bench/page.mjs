@@ -11,7 +11,7 @@
 //     how long opening FILE takes: once the demo has shown its result (the
 //     worker is up), from choosing the file in the Data step until the page
 //     names it as the data open (read by the page, copied to the worker,
-//     read and profiled there). Prints {"seconds": s}.
+//     read and profiled there). Prints the same JSON, of the one run.
 import { createRequire } from 'node:module';
 import { existsSync } from 'node:fs';
 import { resolve, dirname } from 'node:path';
