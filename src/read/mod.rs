@@ -27,11 +27,15 @@ pub struct Limits {
     /// Largest total uncompressed size a workbook's parts may declare.
     /// Default 1 GiB.
     pub max_unzipped_bytes: u64,
+    /// Largest total of shared text an .xlsx sheet may copy into its cells
+    /// (a few kilobytes of text, referred to by a million cells, would be
+    /// gigabytes once every cell holds its own copy). Default 1 GiB.
+    pub max_cell_text_bytes: u64,
 }
 
 impl Default for Limits {
     fn default() -> Self {
-        Limits { max_cells: 50_000_000, max_unzipped_bytes: 1 << 30 }
+        Limits { max_cells: 50_000_000, max_unzipped_bytes: 1 << 30, max_cell_text_bytes: 1 << 30 }
     }
 }
 
@@ -100,6 +104,8 @@ pub enum ReadError {
     TooLargeUnpacked { declared: u64, limit: u64 },
     /// The progress callback asked to stop.
     Stopped,
+    /// A sheet whose cells would hold more than [`Limits::max_cell_text_bytes`] of text.
+    TooMuchText { limit: u64 },
 }
 
 impl fmt::Display for ReadError {
@@ -107,6 +113,12 @@ impl fmt::Display for ReadError {
         match self {
             ReadError::Empty => write!(f, "The file is empty: there is no header row and no data."),
             ReadError::Stopped => write!(f, "Reading was stopped before it finished; the data loaded before are unchanged."),
+            ReadError::TooMuchText { limit } => write!(
+                f,
+                "The sheet repeats its texts so often that its cells would hold more than {} MB of text, more than plumbline \
+                 holds. Save the sheet with fewer or shorter text cells (or only the columns the model needs) and open it again.",
+                limit >> 20
+            ),
             ReadError::HeaderOnly => write!(f, "The file has a header row but no data rows."),
             ReadError::Ragged { line, expected, found } => write!(
                 f,

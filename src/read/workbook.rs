@@ -105,7 +105,12 @@ const CELLS_PER_REPORT: usize = 64 * 1024;
 /// the values are what the library's `worksheet_range` gives (the
 /// non-empty cells, placed by `Range::from_sparse`), the formulas what
 /// `worksheet_formula` gives. Other formats go through those two calls.
-fn read_sheet(wb: &mut Sheets<Cursor<&[u8]>>, name: &str, progress: super::Progress) -> Result<(Range<Data>, Option<Range<String>>), ReadError> {
+///
+/// Before anything is placed in a grid, an .xlsx sheet is held to the
+/// limits: the grid that spans its cells (two cells far apart make a huge
+/// one) to `max_cells`, and the shared text copied into cells to
+/// `max_cell_text_bytes`.
+fn read_sheet(wb: &mut Sheets<Cursor<&[u8]>>, name: &str, limits: super::Limits, progress: super::Progress) -> Result<(Range<Data>, Option<Range<String>>), ReadError> {
     let fail = |e: &dyn std::fmt::Display| ReadError::Workbook { detail: e.to_string() };
     let Sheets::Xlsx(x) = wb else {
         let range = wb.worksheet_range(name).map_err(|e| fail(&e))?;
@@ -122,11 +127,31 @@ fn read_sheet(wb: &mut Sheets<Cursor<&[u8]>>, name: &str, progress: super::Progr
     let (first_row, rows) = (dims.start.0 as f64, (dims.end.0 as f64 - dims.start.0 as f64 + 1.0).max(1.0));
     let (mut values, mut formulas) = (Vec::new(), Vec::new());
     let mut seen = 0usize;
+    let mut text = 0u64;
+    // The bounding boxes of the values and of the formulas: (first row, last row, first column, last column).
+    let mut boxes = [(u32::MAX, 0u32, u32::MAX, 0u32); 2];
+    let mut widen = |b: usize, (r, c): (u32, u32)| -> Result<(), ReadError> {
+        let bx = &mut boxes[b];
+        *bx = (bx.0.min(r), bx.1.max(r), bx.2.min(c), bx.3.max(c));
+        let cells = (bx.1 - bx.0 + 1) as u64 * (bx.3 - bx.2 + 1) as u64;
+        if cells > limits.max_cells as u64 {
+            return Err(ReadError::TooManyCells { limit: limits.max_cells });
+        }
+        Ok(())
+    };
     while let Some(cell) = reader.next_cell_with_formula().map_err(|e| fail(&e))? {
         if let Some(f) = cell.formula.filter(|f| !f.is_empty()) {
+            widen(1, cell.pos)?;
             formulas.push(Cell::new(cell.pos, f));
         }
         if !matches!(cell.value, calamine::DataRef::Empty) {
+            widen(0, cell.pos)?;
+            if let calamine::DataRef::SharedString(s) = &cell.value {
+                text += s.len() as u64;
+                if text > limits.max_cell_text_bytes {
+                    return Err(ReadError::TooMuchText { limit: limits.max_cell_text_bytes });
+                }
+            }
             values.push(Cell::new(cell.pos, Data::from(cell.value)));
         }
         seen += 1;
@@ -151,12 +176,12 @@ fn read_unguarded(bytes: &[u8], options: &ReadOptions, format: Format, progress:
             if !sheets.contains(name) {
                 return Err(ReadError::NoSuchSheet { sheet: name.clone(), sheets: sheets.clone() });
             }
-            let (range, formulas) = read_sheet(&mut wb, name, progress)?;
+            let (range, formulas) = read_sheet(&mut wb, name, limits, progress)?;
             chosen = Some((name.clone(), range, formulas));
         }
         None => {
             for name in &sheets {
-                let (range, formulas) = read_sheet(&mut wb, name, progress)?;
+                let (range, formulas) = read_sheet(&mut wb, name, limits, progress)?;
                 if !range.is_empty() {
                     chosen = Some((name.clone(), range, formulas));
                     break;
@@ -309,12 +334,48 @@ mod tests {
         for bytes in &files {
             let mut wb = open(bytes, 50_000_000).unwrap();
             for name in wb.sheet_names() {
-                let (values, formulas) = read_sheet(&mut wb, &name, &mut |_| true).unwrap();
+                let (values, formulas) = read_sheet(&mut wb, &name, crate::read::Limits::default(), &mut |_| true).unwrap();
                 let mut lib = open(bytes, 50_000_000).unwrap();
                 assert_eq!(values, lib.worksheet_range(&name).unwrap(), "{name}");
                 assert_eq!(formulas.unwrap(), lib.worksheet_formula(&name).unwrap(), "{name}");
             }
         }
+    }
+
+    /// Two cells far apart would make a grid of 17 billion cells: refused
+    /// before any grid is made, in plain words.
+    #[test]
+    fn an_xlsx_whose_cells_span_a_huge_grid_is_refused() {
+        let mut wb = rust_xlsxwriter::Workbook::new();
+        let ws = wb.add_worksheet();
+        ws.write_string(0, 0, "y").unwrap();
+        ws.write_number(1_048_575, 16_383, 1.0).unwrap();
+        let bytes = wb.save_to_buffer().unwrap();
+        let e = read_workbook(&bytes, &ReadOptions::default(), Format::Workbook).unwrap_err();
+        assert!(matches!(e, ReadError::TooManyCells { limit: 50_000_000 }), "{e:?}");
+        assert!(e.to_string().starts_with("The table has more than 50000000 cells"), "{e}");
+    }
+
+    /// One shared text referred to by many cells is copied into each: the
+    /// total is held to the limit (lowered here to 1 MB: 200 cells of a
+    /// 10,000-character text are 2 MB).
+    #[test]
+    fn an_xlsx_that_repeats_a_long_text_past_the_limit_is_refused() {
+        let mut wb = rust_xlsxwriter::Workbook::new();
+        let ws = wb.add_worksheet();
+        let long = "w".repeat(10_000);
+        ws.write_string(0, 0, "note").unwrap();
+        for i in 1..=200 {
+            ws.write_string(i, 0, &long).unwrap();
+        }
+        let bytes = wb.save_to_buffer().unwrap();
+        let mut options = ReadOptions::default();
+        options.limits.max_cell_text_bytes = 1 << 20;
+        let e = read_workbook(&bytes, &options, Format::Workbook).unwrap_err();
+        assert!(matches!(e, ReadError::TooMuchText { limit: 1_048_576 }), "{e:?}");
+        assert!(e.to_string().starts_with("The sheet repeats its texts so often that its cells would hold more than 1 MB of text"), "{e}");
+        options.limits.max_cell_text_bytes = 4 << 20;
+        assert_eq!(read_workbook(&bytes, &options, Format::Workbook).unwrap().table.n_rows(), 200);
     }
 
     /// A large .xlsx reports its progress as the rows go by, never going
