@@ -333,7 +333,7 @@ pub fn report_html(b: &Bundle) -> Result<String, String> {
     for c in f.get("cautions").and_then(Value::as_array).into_iter().flatten() {
         let _ = write!(o, "<li>{}</li>", show(Some(c), 4));
     }
-    let _ = write!(o, "</ul></div><p class=\"muted\">Report made {} by plumbline {}.</p></body></html>\n", esc(&b.date), env!("CARGO_PKG_VERSION"));
+    let _ = writeln!(o, "</ul></div><p class=\"muted\">Report made {} by plumbline {}.</p></body></html>", esc(&b.date), env!("CARGO_PKG_VERSION"));
     Ok(o)
 }
 

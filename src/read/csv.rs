@@ -92,7 +92,7 @@ pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format, progr
     let mut seen = 0usize;
     while let Some(rec) = records.next() {
         seen += 1;
-        if seen % PROGRESS_EVERY == 0 && !progress(0.5 * records.position() as f64 / total) {
+        if seen.is_multiple_of(PROGRESS_EVERY) && !progress(0.5 * records.position() as f64 / total) {
             return Err(ReadError::Stopped);
         }
         let rec = rec?;
@@ -130,7 +130,7 @@ pub fn read_delimited(bytes: &[u8], options: &ReadOptions, format: Format, progr
     let mut seen = 0usize;
     while let Some(rec) = records.next() {
         seen += 1;
-        if seen % PROGRESS_EVERY == 0 && !progress(0.5 + 0.5 * records.position() as f64 / total) {
+        if seen.is_multiple_of(PROGRESS_EVERY) && !progress(0.5 + 0.5 * records.position() as f64 / total) {
             return Err(ReadError::Stopped);
         }
         let rec = rec?;

@@ -155,7 +155,7 @@ fn read_sheet(wb: &mut Sheets<Cursor<&[u8]>>, name: &str, limits: super::Limits,
             values.push(Cell::new(cell.pos, Data::from(cell.value)));
         }
         seen += 1;
-        if seen % CELLS_PER_REPORT == 0 && !progress((cell.pos.0 as f64 - first_row) / rows) {
+        if seen.is_multiple_of(CELLS_PER_REPORT) && !progress((cell.pos.0 as f64 - first_row) / rows) {
             return Err(ReadError::Stopped);
         }
     }
