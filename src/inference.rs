@@ -134,6 +134,16 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
     let q = t_quantile(opts.level, dfr);
     let sd_y = weighted_sd(&(0..n).map(|i| design.response.get(i).to_f64()).collect::<Vec<_>>(), w);
     let p = design.columns.len();
+    // The columns' standard deviations (for the standardized coefficients),
+    // one column per task on the solution's threads.
+    let sds = crate::lstsq::rows::map_chunks(p, sol.threads(), |j| {
+        let col = &design.columns[j];
+        if col.term.is_some() && !sol.aliased.contains(&j) {
+            weighted_sd(&col.values.hi, w)
+        } else {
+            f64::NAN
+        }
+    });
     let mut coefficients = Vec::with_capacity(p);
     for (j, col) in design.columns.iter().enumerate() {
         let group = col.term.map_or("(intercept)".to_string(), |t| spec.terms[t].to_string());
@@ -156,7 +166,7 @@ pub fn infer(spec: &ModelSpec, design: &Design, sol: &LstsqSolution, table_rows:
         let b = sol.coef[j];
         let se = sigma * sol.se_factor(j);
         let t = b / se;
-        let standardized = col.term.map(|_| b * weighted_sd(&col.values.hi, w) / sd_y);
+        let standardized = col.term.map(|_| b * sds[j] / sd_y);
         coefficients.push(Coefficient {
             term: col.label.clone(),
             group,

@@ -133,8 +133,10 @@ pub fn fit(table: &Table, spec: &ModelSpec, options: &FitOptions) -> Result<Fitt
     // Without weights the kernel shares the design's columns (which share
     // the table's where they are plain columns): no copy of the data.
     let (x, y) = weighted_system(&design);
-    // √w times a value near 1e300 can pass the largest f64.
-    for (label, col) in std::iter::once((&design.response_label, &y)).chain(design.columns.iter().map(|c| &c.label).zip(&x)) {
+    // √w times a value near 1e300 can pass the largest f64 (without
+    // weights the columns are the design's, already checked finite).
+    let weighted = design.weights.is_some();
+    for (label, col) in std::iter::once((&design.response_label, &y)).chain(design.columns.iter().map(|c| &c.label).zip(&x)).filter(|_| weighted) {
         if let Some(i) = (0..col.len()).find(|&i| !col.get(i).is_finite()) {
             let w = spec.weights.as_deref().unwrap_or("the weight");
             return Err(FitError::Design(DesignError::Overflow {

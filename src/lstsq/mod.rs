@@ -648,6 +648,12 @@ impl LstsqSolution {
         q
     }
 
+    /// Threads the passes over the rows may use (for callers that add
+    /// passes of their own).
+    pub fn threads(&self) -> usize {
+        self.threads
+    }
+
     /// Input columns in the order they entered R.
     pub fn accepted(&self) -> &[usize] {
         &self.accepted
