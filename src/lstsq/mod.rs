@@ -265,22 +265,8 @@ fn solve_double(x: &[DdColumn], y: &DdColumn, qr: PivotedQr<f64>, qty: &[f64], r
     let r_at = |i: usize, j: usize| qr.r(i, j);
     for _ in 0..REFINEMENT_STEPS {
         let (_, g) = residual_pass(x, y, &qr.accepted, &coef_dd, scales, true, threads);
-        // Rᵀz = g, then Rδ = z.
         let mut z: Vec<f64> = g.iter().map(|v| v.to_f64()).collect();
-        for i in 0..k {
-            let mut s = z[i];
-            for l in 0..i {
-                s -= r_at(l, i) * z[l];
-            }
-            z[i] = s / r_at(i, i);
-        }
-        for i in (0..k).rev() {
-            let mut s = z[i];
-            for l in i + 1..k {
-                s -= r_at(i, l) * z[l];
-            }
-            z[i] = s / r_at(i, i);
-        }
+        tsqr::solve_semi_normal(k, r_at, &mut z);
         for (pos, &j) in qr.accepted.iter().enumerate() {
             coef_dd[j] = coef_dd[j] + DD::from_f64(z[pos]).scale(scales[j]);
         }
@@ -721,8 +707,9 @@ fn sum_sq(v: &[DD]) -> DD {
 }
 
 /// The power of two that brings the column's 2-norm into [0.5, 1)
-/// (within 2^±1020, so that its reciprocal is finite too).
-fn pow2_scale(col: &[f64]) -> f64 {
+/// (within 2^±1020, so that its reciprocal is finite too). The streaming
+/// kernel scales by the same rule.
+pub(crate) fn pow2_scale(col: &[f64]) -> f64 {
     let nrm = qr_pivot::norm(col);
     if nrm == 0.0 || !nrm.is_finite() {
         return 1.0;

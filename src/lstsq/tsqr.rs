@@ -35,6 +35,7 @@
 //! switch to double-double (the caller chooses the arithmetic `T`).
 
 use super::dd::DD;
+use super::pow2_scale;
 use super::qr_pivot::{factor_qr_pivoted, norm, QrParams};
 use super::real::Real;
 use super::DdColumn;
@@ -446,22 +447,8 @@ pub fn refine_tsqr<T: Real>(x: &[impl Borrow<DdColumn>], y: &DdColumn, sol: &mut
             start += h;
         }
         sol.rss = rss;
-        // Rᵀz = g, then Rδ = z.
         let mut z: Vec<T> = g.iter().map(|&v| T::from_dd(v)).collect();
-        for i in 0..k {
-            let mut s = z[i];
-            for l in 0..i {
-                s = s - r_at(l, i) * z[l];
-            }
-            z[i] = s / r_at(i, i);
-        }
-        for i in (0..k).rev() {
-            let mut s = z[i];
-            for l in i + 1..k {
-                s = s - r_at(i, l) * z[l];
-            }
-            z[i] = s / r_at(i, i);
-        }
+        solve_semi_normal(k, r_at, &mut z);
         for (pos, &j) in sol.accepted.iter().enumerate() {
             sol.coef_dd[j] = sol.coef_dd[j] + z[pos].to_dd().scale(sol.scales[j]);
             sol.coef[j] = sol.coef_dd[j].to_f64();
@@ -472,13 +459,23 @@ pub fn refine_tsqr<T: Real>(x: &[impl Borrow<DdColumn>], y: &DdColumn, sol: &mut
 /// Rows per block of the refinement pass.
 const BLOCK: usize = 256;
 
-/// The power of two that brings the column's 2-norm into [0.5, 1), as the
-/// main kernel chooses it.
-fn pow2_scale(col: &[f64]) -> f64 {
-    let nrm = norm(col);
-    if nrm == 0.0 || !nrm.is_finite() {
-        return 1.0;
+/// Solves RᵀRz = g in place (`z` holds g on entry): Rᵀw = g by forward
+/// substitution, then Rz = w by back substitution; R is `k × k` upper
+/// triangular, read through `r(i, j)`. The correction step of the
+/// semi-normal equations, here and in [`super::solve_lstsq`].
+pub(crate) fn solve_semi_normal<T: Real>(k: usize, r: impl Fn(usize, usize) -> T, z: &mut [T]) {
+    for i in 0..k {
+        let mut s = z[i];
+        for l in 0..i {
+            s = s - r(l, i) * z[l];
+        }
+        z[i] = s / r(i, i);
     }
-    let e = nrm.log2().floor() as i32 + 1;
-    2f64.powi(-e)
+    for i in (0..k).rev() {
+        let mut s = z[i];
+        for l in i + 1..k {
+            s = s - r(i, l) * z[l];
+        }
+        z[i] = s / r(i, i);
+    }
 }

@@ -276,6 +276,16 @@ async function afterFit(action) {
   await page.waitForFunction((n) => window.plumblineTest.fitsDone() > n, before, { timeout: 20000 });
 }
 
+/** The demo loaded, with choices of the user's own, fitted. */
+async function demoWithChoices() {
+  await afterFit(() => page.click('#demo-button'));
+  await page.selectOption('#response-transform', 'sqrt');
+  await page.fill('#terms', 'log(floor_area_m2), cat(climate_zone)');
+  await page.fill('#level', '90');
+  await afterFit(() => page.click('#fit-button'));
+  await assertCoefRows(6);
+}
+
 /** Waits for the prediction form of the latest fit (an earlier fit's form may still be on the page, about to be replaced). */
 async function caseFormOfThisFit() {
   await page.waitForFunction(() => window.plumblineTest.caseFormReady(), null, { timeout: 15000 });
@@ -1080,12 +1090,7 @@ function largeCsv() {
 
 test('a large file shows how much is read, Cancel ends the load and keeps what was open; a load allowed to finish opens it', { timeout: 300000 }, async () => {
   await openFresh();
-  await afterFit(() => page.click('#demo-button'));
-  await page.selectOption('#response-transform', 'sqrt');
-  await page.fill('#terms', 'log(floor_area_m2), cat(climate_zone)');
-  await page.fill('#level', '90');
-  await afterFit(() => page.click('#fit-button'));
-  await assertCoefRows(6);
+  await demoWithChoices();
   const coefBefore = await coefTableFromPage();
   assert.ok(await page.isHidden('#load-block'), 'no bar while nothing loads');
   const big = join(shots, 'large-40mb.csv');
@@ -1169,15 +1174,6 @@ test('the bad-input corpus through the file input: a plain message, and the data
   assert.ok(names.length >= 11, `the corpus lists its files (${names.length})`);
   const noJargon = /panic|undefined|NaN|null|\[object|Error:|at line \d+ column|unwrap|RuntimeError|stack/;
   await openFresh();
-  /** The demo loaded, with choices of the user's own, fitted. */
-  const setUp = async () => {
-    await afterFit(() => page.click('#demo-button'));
-    await page.selectOption('#response-transform', 'sqrt');
-    await page.fill('#terms', 'log(floor_area_m2), cat(climate_zone)');
-    await page.fill('#level', '90');
-    await afterFit(() => page.click('#fit-button'));
-    await assertCoefRows(6);
-  };
   const choicesKept = async (name) => {
     assert.match(await page.textContent('#data-facts'), /building-energy\.csv .*240 rows of data, 10 columns/, `${name}: the data stay`);
     assert.equal(await page.locator('#preview tbody tr').count(), 10, `${name}: the preview stays`);
@@ -1187,7 +1183,7 @@ test('the bad-input corpus through the file input: a plain message, and the data
     assert.equal(await page.inputValue('#level'), '90', `${name}: the level stays`);
     await assertCoefRows(6);
   };
-  await setUp();
+  await demoWithChoices();
   const seen = [];
   for (const name of names) {
     const want = expected[name];
@@ -1226,7 +1222,7 @@ test('the bad-input corpus through the file input: a plain message, and the data
         assert.equal(await columnRow(column).locator('select').inputValue(), kind, `${name}: ${column} is ${kind}`);
       }
       seen.push(`${name}: loaded, ${plural(warnings.length, 'warning')}`);
-      await setUp();
+      await demoWithChoices();
     }
   }
   console.log(`  bad-input corpus through the page: ${seen.join('; ')}`);

@@ -489,20 +489,29 @@ async function reinspect(change, focusAfter) {
   return true;
 }
 
-async function loadFile(file) {
-  if (!file) return;
+/**
+ * The contents of a file the user picked, by `read` (arrayBuffer or text),
+ * or null after saying in the Data step why not (too big, unreadable); what
+ * was open stays.
+ */
+async function pickedContents(file, read) {
   const big = tooBig(file);
   if (big) {
     showMessage(el.dataMessage, `${big}${keptNote()}`);
-    return;
+    return null;
   }
-  let buf;
   try {
-    buf = await file.arrayBuffer();
+    return await read(file);
   } catch (e) {
     showMessage(el.dataMessage, `"${file.name}" could not be read from the disk: ${e.message}${keptNote()}`);
-    return;
+    return null;
   }
+}
+
+async function loadFile(file) {
+  if (!file) return;
+  const buf = await pickedContents(file, (f) => f.arrayBuffer());
+  if (buf === null) return;
   await loadBytes(file.name, new Uint8Array(buf));
 }
 
@@ -3117,18 +3126,8 @@ async function openSession(file) {
 }
 
 async function openSessionFile(file) {
-  const big = tooBig(file);
-  if (big) {
-    showMessage(el.dataMessage, `${big}${keptNote()}`);
-    return;
-  }
-  let text;
-  try {
-    text = await file.text();
-  } catch (e) {
-    showMessage(el.dataMessage, `"${file.name}" could not be read from the disk: ${e.message}${keptNote()}`);
-    return;
-  }
+  const text = await pickedContents(file, (f) => f.text());
+  if (text === null) return;
   let opened;
   try {
     opened = await exportCall('session_open', [text, state.data ? state.data.bytes : new Uint8Array(0)]);
